@@ -1,0 +1,1 @@
+from . import main; import sys; sys.exit(main())
