@@ -1,0 +1,4 @@
+"""matplotlib figures (Agg backend, PNG files), one module per topic."""
+import matplotlib
+
+matplotlib.use("Agg")

@@ -1,0 +1,31 @@
+"""Torque of each joint along a trajectory against its limits."""
+import matplotlib.pyplot as plt
+import numpy as np
+
+
+def plot_torques(robot, t, tau, parts, path):
+    n = robot.dof
+    fig, axes = plt.subplots(n, 1, figsize=(9, 1.9 * n + 0.6), sharex=True, squeeze=False)
+    for j, ax in enumerate(axes[:, 0]):
+        joint = robot.joints[j]
+        ax.plot(t, tau[:, j], color="k", lw=1.5, label="total")
+        ax.plot(t, parts.inertial[:, j], lw=0.9, label="inertial")
+        ax.plot(t, parts.velocity[:, j], lw=0.9, label="velocity product")
+        ax.plot(t, parts.gravity[:, j], lw=0.9, label="gravity")
+        ax.plot(t, parts.friction[:, j], lw=0.9, label="friction")
+        lim = joint.limits.torque
+        if lim:
+            for sign in (1, -1):
+                ax.axhline(sign * lim, color="r", ls="--", lw=1)
+            over = np.abs(tau[:, j]) > lim
+            if over.any():
+                ax.fill_between(t, -lim, lim, where=over, color="r", alpha=0.15)
+        unit = "N m" if joint.type == "revolute" else "N"
+        ax.set_ylabel(f"{joint.name} [{unit}]")
+        ax.grid(alpha=0.3)
+    axes[0, 0].legend(loc="upper right", fontsize=7, ncol=5)
+    axes[0, 0].set_title(f"{robot.name}: feedforward torque and limits (red dashed)")
+    axes[-1, 0].set_xlabel("t [s]")
+    fig.tight_layout()
+    fig.savefig(path, dpi=110)
+    plt.close(fig)
