@@ -87,14 +87,18 @@ typedef struct ffwd_model {
  * build without C11 atomics. */
 typedef struct ffwd_payload_box {
     ffwd_real buf[2][10];
-#if defined(FFWD_NO_ATOMICS) || defined(__cplusplus)
-    volatile uint32_t state;
+#if defined(FFWD_NO_ATOMICS) || defined(__cplusplus) || !defined(__STDC_VERSION__) \
+    || __STDC_VERSION__ < 201112L || defined(__STDC_NO_ATOMICS__)
+    volatile uint32_t state;       /* same size and alignment as the atomic word */
 #else
+#define FFWD_BOX_ATOMIC 1
     _Atomic uint32_t state;
 #endif
 } ffwd_payload_box;
 
-#define FFWD_WORK_REALS (FFWD_MAX_DOF * 96 + 64)
+/* scratch: per joint 30 cached constants, 30 per-call body state, 48 composite /
+ * articulated-body data; plus the payload-lumped tool body and a 6x10 temporary */
+#define FFWD_WORK_REALS (FFWD_MAX_DOF * 112 + 80)
 
 typedef struct ffwd_work {
     const ffwd_model *model;        /* the model this work was checked against */
@@ -105,11 +109,16 @@ typedef struct ffwd_work {
 
 /* ---- model and work ---------------------------------------------------------- */
 const char *ffwd_status_str(ffwd_status s);
-/* Checks a model filled in by hand: dof range, parents, finite numbers, unit axes,
- * rotation matrices orthonormal, mass > 0, inertia positive definite with the
- * triangle inequality, non-negative drive parameters, ordered limits. */
+/* Checks a model filled in by hand: dof in 1..FFWD_MAX_DOF, parent in [-1, own index),
+ * joint type known, every number finite (fields of unset limits are ignored), axes unit
+ * (1e-6; float 1e-5), rot/tool_rot orthonormal with det +1 (1e-9; float 1e-4), mass > 0,
+ * inertia about the COM positive definite with principal moments satisfying the
+ * triangle inequality, drive parameters >= 0 and coulomb_band > 0, set limits positive
+ * with q_min < q_max, no unknown has_limits bits, tool_parent in range, payload all
+ * zero or a valid body. FFWD_E_MODEL when a rule fails. */
 ffwd_status ffwd_model_check(const ffwd_model *m);
-/* Checks m and binds w to it. Every other call needs (m, w) bound this way. */
+/* Checks m, caches per-joint constants in w and binds w to m. Every other call needs
+ * (m, w) bound this way (else FFWD_E_MODEL). Call it again after changing m. */
 ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m);
 /* Build facts for loaders: FFWD_MAX_DOF, sizeof(ffwd_real), sizeof(ffwd_model), sizeof(ffwd_work). */
 void ffwd_build_info(uint32_t *max_dof, uint32_t *real_size, uint32_t *model_size, uint32_t *work_size);

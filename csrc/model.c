@@ -1,0 +1,329 @@
+/* model.c - status names, model validation, work binding, build facts. */
+#include "spatial.h"
+
+#ifdef FFWD_SINGLE
+#define ROT_TOL FR(1e-4)
+#define AXIS_TOL FR(1e-5)
+#define REL_TOL FR(1e-5)
+#else
+#define ROT_TOL FR(1e-9)
+#define AXIS_TOL FR(1e-6)
+#define REL_TOL FR(1e-10)
+#endif
+
+#define STAMP_MAGIC 0x66667764u
+
+const char *ffwd_status_str(ffwd_status s)
+{
+    switch (s) {
+    case FFWD_OK: return "ok";
+    case FFWD_E_ARG: return "bad argument (null pointer or out of range)";
+    case FFWD_E_NONFINITE: return "non-finite input (NaN or Inf)";
+    case FFWD_E_MODEL: return "invalid model, or work not bound to this model";
+    case FFWD_E_SINGULAR: return "singular matrix";
+    case FFWD_E_LIMIT: return "limit missing or violated";
+    case FFWD_E_INFEASIBLE: return "no admissible solution";
+    default: return "unknown status";
+    }
+}
+
+/* Finite test on the bit pattern, so that it survives -ffast-math and needs no libm:
+ * (exponent + 1) >> width is 1 exactly when the exponent is all ones (Inf, NaN). */
+#ifdef FFWD_SINGLE
+static uint32_t nonfinite1(const ffwd_real *x)
+{
+    uint32_t b;
+    memcpy(&b, x, sizeof b);
+    return (((b >> 23) & 0xffu) + 1u) >> 8;
+}
+#else
+static uint32_t nonfinite1(const ffwd_real *x)
+{
+    uint64_t b;
+    memcpy(&b, x, sizeof b);
+    return (uint32_t)((((b >> 52) & 0x7ffu) + 1u) >> 11);
+}
+#endif
+
+int ffwd_finite_(const ffwd_real *x, uint32_t n)
+{
+    uint32_t i, bad = 0u;
+    for (i = 0; i < n; i++)
+        bad |= nonfinite1(x + i);
+    return bad == 0u;
+}
+
+void ffwd_zero_(ffwd_real *x, uint32_t n)
+{
+    uint32_t i;
+    if (x == NULL)
+        return;
+    for (i = 0; i < n; i++)
+        x[i] = FR(0);
+}
+
+static ffwd_real absr(ffwd_real x)
+{
+    return x < FR(0) ? -x : x;
+}
+
+/* R row-major with R R^T = 1 and det R = +1, within ROT_TOL */
+static int rotation_ok(const ffwd_real *R)
+{
+    int i, j;
+    ffwd_real det;
+    for (i = 0; i < 3; i++)
+        for (j = 0; j < 3; j++) {
+            ffwd_real d = R[3 * i] * R[3 * j] + R[3 * i + 1] * R[3 * j + 1] + R[3 * i + 2] * R[3 * j + 2];
+            if (absr(d - (i == j ? FR(1) : FR(0))) > ROT_TOL)
+                return 0;
+        }
+    det = R[0] * (R[4] * R[8] - R[5] * R[7]) - R[1] * (R[3] * R[8] - R[5] * R[6])
+        + R[2] * (R[3] * R[7] - R[4] * R[6]);
+    return det > FR(0);
+}
+
+/* Leading principal minors of the symmetric matrix S (row-major 3x3) all > 0. */
+static int pos_def3(const ffwd_real *S)
+{
+    ffwd_real d2 = S[0] * S[4] - S[1] * S[3];
+    ffwd_real d3 = S[0] * (S[4] * S[8] - S[5] * S[7]) - S[1] * (S[3] * S[8] - S[5] * S[6])
+                 + S[2] * (S[3] * S[7] - S[4] * S[6]);
+    return S[0] > FR(0) && d2 > FR(0) && d3 > FR(0);
+}
+
+/* 10 inertial parameters of a rigid body: mass > 0, inertia about the centre of mass
+ * positive definite, principal moments satisfying the triangle inequality. */
+static int body_ok(const ffwd_real *th)
+{
+    ffwd_real m = th[0], C[9], S[9], tr, eps;
+    const ffwd_real *h = th + 1;
+    ffwd_real hh;
+    int k;
+    if (!(m > FR(0)))
+        return 0;
+    hh = v3_dot(h, h);
+    /* inertia about the COM: Ic = Io - (|h|^2 1 - h h^T) / m */
+    C[0] = th[4] - (hh - h[0] * h[0]) / m;
+    C[4] = th[7] - (hh - h[1] * h[1]) / m;
+    C[8] = th[9] - (hh - h[2] * h[2]) / m;
+    C[1] = C[3] = th[5] + h[0] * h[1] / m;
+    C[2] = C[6] = th[6] + h[0] * h[2] / m;
+    C[5] = C[7] = th[8] + h[1] * h[2] / m;
+    if (!pos_def3(C))
+        return 0;
+    /* triangle inequality of the principal moments <=> tr(Ic)/2 * 1 - Ic is positive
+     * semidefinite (it is the mass-weighted second moment of the body); allow a
+     * relative slack for bodies on the boundary (thin plates). */
+    tr = C[0] + C[4] + C[8];
+    eps = REL_TOL * tr;
+    for (k = 0; k < 9; k++)
+        S[k] = -C[k];
+    S[0] += FR(0.5) * tr + eps;
+    S[4] += FR(0.5) * tr + eps;
+    S[8] += FR(0.5) * tr + eps;
+    return pos_def3(S);
+}
+
+static int all_zero(const ffwd_real *x, int n)
+{
+    int i;
+    for (i = 0; i < n; i++)
+        if (x[i] != FR(0))
+            return 0;
+    return 1;
+}
+
+static int joint_ok(const ffwd_joint *J, int32_t index)
+{
+    ffwd_real a2;
+    if (J->type != FFWD_REVOLUTE && J->type != FFWD_PRISMATIC)
+        return 0;
+    if (J->parent < -1 || J->parent >= index)
+        return 0;
+    if (!ffwd_finite_(J->rot, 9) || !ffwd_finite_(J->pos, 3) || !ffwd_finite_(J->axis, 3)
+        || !ffwd_finite_(J->inertia, 10) || !ffwd_finite_(&J->armature, 1)
+        || !ffwd_finite_(&J->viscous, 1) || !ffwd_finite_(&J->coulomb, 1)
+        || !ffwd_finite_(&J->coulomb_band, 1))
+        return 0;
+    if (!rotation_ok(J->rot))
+        return 0;
+    a2 = v3_dot(J->axis, J->axis);
+    if (absr(a2 - FR(1)) > AXIS_TOL)
+        return 0;
+    if (!body_ok(J->inertia))
+        return 0;
+    if (!(J->armature >= FR(0)) || !(J->viscous >= FR(0)) || !(J->coulomb >= FR(0))
+        || !(J->coulomb_band > FR(0)))
+        return 0;
+    if (J->has_limits & ~0x1fu)
+        return 0;
+    if (J->has_limits & FFWD_LIM_POSITION) {
+        if (!ffwd_finite_(&J->q_min, 1) || !ffwd_finite_(&J->q_max, 1) || !(J->q_min < J->q_max))
+            return 0;
+    }
+    if ((J->has_limits & FFWD_LIM_VELOCITY) && !(ffwd_finite_(&J->v_max, 1) && J->v_max > FR(0)))
+        return 0;
+    if ((J->has_limits & FFWD_LIM_ACCELERATION) && !(ffwd_finite_(&J->a_max, 1) && J->a_max > FR(0)))
+        return 0;
+    if ((J->has_limits & FFWD_LIM_JERK) && !(ffwd_finite_(&J->j_max, 1) && J->j_max > FR(0)))
+        return 0;
+    if ((J->has_limits & FFWD_LIM_TORQUE) && !(ffwd_finite_(&J->tau_max, 1) && J->tau_max > FR(0)))
+        return 0;
+    return 1;
+}
+
+/* payload 10 parameters: all zero, or a physically valid body */
+int ffwd_payload_params_ok_(const ffwd_real *th)
+{
+    if (!ffwd_finite_(th, 10))
+        return 0;
+    return all_zero(th, 10) || body_ok(th);
+}
+
+ffwd_status ffwd_model_check(const ffwd_model *m)
+{
+    int32_t i;
+    if (m == NULL)
+        return FFWD_E_ARG;
+    if (m->dof < 1u || m->dof > (uint32_t)FFWD_MAX_DOF)
+        return FFWD_E_MODEL;
+    if (!ffwd_finite_(m->gravity, 3))
+        return FFWD_E_MODEL;
+    for (i = 0; i < (int32_t)m->dof; i++)
+        if (!joint_ok(&m->joint[i], i))
+            return FFWD_E_MODEL;
+    if (m->tool_parent < 0 || m->tool_parent >= (int32_t)m->dof)
+        return FFWD_E_MODEL;
+    if (!ffwd_finite_(m->tool_rot, 9) || !ffwd_finite_(m->tool_pos, 3) || !rotation_ok(m->tool_rot))
+        return FFWD_E_MODEL;
+    if (!ffwd_payload_params_ok_(m->payload))
+        return FFWD_E_MODEL;
+    return FFWD_OK;
+}
+
+static uint32_t stamp_of(const ffwd_model *m)
+{
+    uintptr_t a = (uintptr_t)m;
+    uint32_t s = STAMP_MAGIC ^ (m->dof * 0x9e3779b9u);
+    s ^= (uint32_t)(a & 0xffffffffu);
+    s ^= (uint32_t)((a >> 16) >> 16);
+    return s;
+}
+
+int ffwd_bound_(const ffwd_model *m, const ffwd_work *w)
+{
+    return w->model == m && w->stamp == stamp_of(m) && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
+}
+
+/* Per-joint constants of the joint transform (see joint_xform in spatial.h). */
+static void cache_joint(const ffwd_joint *J, ffwd_real *K)
+{
+    const ffwd_real *a = J->axis, *r = J->rot;
+    ffwd_real n = v3_dot(a, a), P[9], X[9], Q[9];
+    int k;
+    for (k = 0; k < FFWD_K_STRIDE; k++)
+        K[k] = FR(0);
+    if (J->type == FFWD_REVOLUTE) {
+        int i, j;
+        /* a a^T / |a|^2 so that a slightly non-unit axis still gives a rotation */
+        for (i = 0; i < 3; i++)
+            for (j = 0; j < 3; j++) {
+                P[3 * i + j] = a[i] * a[j] / n;
+                Q[3 * i + j] = (i == j ? FR(1) : FR(0)) - P[3 * i + j];
+            }
+        X[0] = FR(0); X[1] = -a[2]; X[2] = a[1];
+        X[3] = a[2]; X[4] = FR(0); X[5] = -a[0];
+        X[6] = -a[1]; X[7] = a[0]; X[8] = FR(0);
+        m3_mm(r, P, K);
+        m3_mm(r, Q, K + 9);
+        m3_mm(r, X, K + 18);
+        K[27] = J->pos[0]; K[28] = J->pos[1]; K[29] = J->pos[2];
+    } else {
+        for (k = 0; k < 9; k++)
+            K[k] = r[k];
+        K[9] = J->pos[0]; K[10] = J->pos[1]; K[11] = J->pos[2];
+        m3_mul(r, a, K + 12);
+    }
+}
+
+ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
+{
+    ffwd_status st;
+    uint32_t i;
+    if (w == NULL || m == NULL)
+        return FFWD_E_ARG;
+    w->model = NULL;
+    w->payload = NULL;
+    w->stamp = 0u;
+    st = ffwd_model_check(m);
+    if (st != FFWD_OK)
+        return st;
+    ffwd_zero_(w->scratch, (uint32_t)FFWD_WORK_REALS);
+    for (i = 0; i < m->dof; i++)
+        cache_joint(&m->joint[i], w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
+    w->model = m;
+    w->stamp = stamp_of(m);
+    return FFWD_OK;
+}
+
+ffwd_status ffwd_work_use_payload(ffwd_work *w, ffwd_payload_box *box)
+{
+    if (w == NULL)
+        return FFWD_E_ARG;
+    if (w->model == NULL || !ffwd_bound_(w->model, w))
+        return FFWD_E_MODEL;
+    w->payload = box;
+    return FFWD_OK;
+}
+
+void ffwd_build_info(uint32_t *max_dof, uint32_t *real_size, uint32_t *model_size, uint32_t *work_size)
+{
+    if (max_dof != NULL)
+        *max_dof = (uint32_t)FFWD_MAX_DOF;
+    if (real_size != NULL)
+        *real_size = (uint32_t)sizeof(ffwd_real);
+    if (model_size != NULL)
+        *model_size = (uint32_t)sizeof(ffwd_model);
+    if (work_size != NULL)
+        *work_size = (uint32_t)sizeof(ffwd_work);
+}
+
+static uint32_t shape_len(int shape, uint32_t n)
+{
+    switch (shape) {
+    case FFWD_SHAPE_NN: return n * n;
+    case FFWD_SHAPE_44: return 16u;
+    case FFWD_SHAPE_6N: return 6u * n;
+    case FFWD_SHAPE_REG: return 13u * n * n;
+    default: return n;
+    }
+}
+
+ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
+                        ffwd_real *const *out, const int *shape, int nout)
+{
+    ffwd_status st = FFWD_OK;
+    uint32_t n = 0u;
+    int i;
+    if (m != NULL && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF)
+        n = m->dof;
+    if (m == NULL || w == NULL)
+        st = FFWD_E_ARG;
+    for (i = 0; i < nin; i++)
+        if (in[i] == NULL)
+            st = FFWD_E_ARG;
+    for (i = 0; i < nout; i++)
+        if (out[i] == NULL)
+            st = FFWD_E_ARG;
+    if (st == FFWD_OK && !ffwd_bound_(m, w))
+        st = FFWD_E_MODEL;
+    if (st == FFWD_OK)
+        for (i = 0; i < nin; i++)
+            if (!ffwd_finite_(in[i], n))
+                st = FFWD_E_NONFINITE;
+    if (st != FFWD_OK)
+        for (i = 0; i < nout; i++)
+            ffwd_zero_(out[i], shape_len(shape[i], n));
+    return st;
+}

@@ -1,0 +1,243 @@
+/* spatial.h - internal helpers of the ffwd core (not part of the public API).
+ *
+ * 6-D motion and force vectors in Featherstone's spatial-vector form, stored as
+ * two 3-vectors [angular; linear]. A frame change is kept as a rotation plus a
+ * translation (never as a 6x6 matrix):
+ *   R  3x3 row-major, columns = child axes in parent coordinates (x_parent = R x_child + p)
+ *   p  child origin in parent coordinates.
+ * Motion parent -> child:  w_c = R^T w_p,  v_c = R^T (v_p + w_p x p)
+ * Force  child -> parent:  f_p = R f_c,    n_p = R n_c + p x f_p
+ * A rigid body's inertia is the 10-vector th = m, h (= m c), Ixx Ixy Ixz Iyy Iyz Izz
+ * (about the frame origin). Applied to a motion (w, v):
+ *   n = Io w + h x v,   f = m v + w x h.
+ */
+#ifndef FFWD_SPATIAL_H
+#define FFWD_SPATIAL_H
+
+#include <string.h>
+#include "include/ffwd.h"
+
+#define FR(x) ((ffwd_real)(x))
+
+/* ---- work scratch layout (offsets into ffwd_work.scratch) ----------------------- */
+/* per-model constants cached by ffwd_work_init, per joint: Rt = C0 + cos q * CA + sin q * CB,
+ * p = pos + q * RA */
+#define FFWD_K_STRIDE 30
+#define FFWD_OFF_K      0
+/* per-call per-body state: Rt[9] p[3] v[6] a[6] f[6] */
+#define FFWD_B_STRIDE 30
+#define FFWD_OFF_B      (FFWD_OFF_K + FFWD_K_STRIDE * FFWD_MAX_DOF)
+/* composite inertia (10) / articulated body data (47) per body */
+#define FFWD_A_STRIDE 48
+#define FFWD_OFF_A      (FFWD_OFF_B + FFWD_B_STRIDE * FFWD_MAX_DOF)
+/* effective payload-lumped parameters of the tool_parent body, and a 6x10 temp */
+#define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
+#define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
+#define FFWD_LAYOUT_END (FFWD_OFF_TMP + 64)
+
+typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
+
+/* ---- internal functions shared between the core's files -------------------------- */
+/* sin and cos of x, bounded time, no libm (trig.c). */
+void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c);
+/* 1 when (m, w) are bound by ffwd_work_init (model.c). */
+int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
+/* 1 when every entry of x[0..n) is finite (model.c). */
+int ffwd_finite_(const ffwd_real *x, uint32_t n);
+/* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
+ * and returns a pointer to it (payload.c; readers never wait). */
+const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* payload parameters all zero or a physically valid body (model.c). */
+int ffwd_payload_params_ok_(const ffwd_real *th);
+/* Entry checks shared by the per-cycle functions (model.c). in: nin input vectors of
+ * dof entries; out: nout outputs with sizes given by shape codes (FFWD_SHAPE_*).
+ * Null pointer -> FFWD_E_ARG, unbound work -> FFWD_E_MODEL, non-finite input ->
+ * FFWD_E_NONFINITE; on any error every non-null output is zeroed (when m is usable). */
+enum { FFWD_SHAPE_N = 0, FFWD_SHAPE_NN = 1, FFWD_SHAPE_44 = 2, FFWD_SHAPE_6N = 3, FFWD_SHAPE_REG = 4 };
+ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
+                        ffwd_real *const *out, const int *shape, int nout);
+/* Rt, p of every body at q into the work's body area (dynamics.c). */
+void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+/* Forward pass of spatial velocity and acceleration of every body, base acceleration -g;
+ * qd or qdd NULL means zero (dynamics.c). Needs ffwd_transforms_. */
+void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const ffwd_real *qdd,
+                   const ffwd_real *g);
+/* x[0..n) = 0; x may be NULL. */
+void ffwd_zero_(ffwd_real *x, uint32_t n);
+
+/* ---- small 3-D helpers ------------------------------------------------------------ */
+static inline void v3_cross(const ffwd_real *a, const ffwd_real *b, ffwd_real *o)
+{
+    ffwd_real x = a[1] * b[2] - a[2] * b[1];
+    ffwd_real y = a[2] * b[0] - a[0] * b[2];
+    ffwd_real z = a[0] * b[1] - a[1] * b[0];
+    o[0] = x; o[1] = y; o[2] = z;
+}
+
+static inline ffwd_real v3_dot(const ffwd_real *a, const ffwd_real *b)
+{
+    return a[0] * b[0] + a[1] * b[1] + a[2] * b[2];
+}
+
+/* o = R x */
+static inline void m3_mul(const ffwd_real *R, const ffwd_real *x, ffwd_real *o)
+{
+    ffwd_real a = R[0] * x[0] + R[1] * x[1] + R[2] * x[2];
+    ffwd_real b = R[3] * x[0] + R[4] * x[1] + R[5] * x[2];
+    ffwd_real c = R[6] * x[0] + R[7] * x[1] + R[8] * x[2];
+    o[0] = a; o[1] = b; o[2] = c;
+}
+
+/* o = R^T x */
+static inline void m3_tmul(const ffwd_real *R, const ffwd_real *x, ffwd_real *o)
+{
+    ffwd_real a = R[0] * x[0] + R[3] * x[1] + R[6] * x[2];
+    ffwd_real b = R[1] * x[0] + R[4] * x[1] + R[7] * x[2];
+    ffwd_real c = R[2] * x[0] + R[5] * x[1] + R[8] * x[2];
+    o[0] = a; o[1] = b; o[2] = c;
+}
+
+/* O = A B (3x3, O may not alias A or B) */
+static inline void m3_mm(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
+{
+    int i, j;
+    for (i = 0; i < 3; i++)
+        for (j = 0; j < 3; j++)
+            O[3 * i + j] = A[3 * i] * B[j] + A[3 * i + 1] * B[3 + j] + A[3 * i + 2] * B[6 + j];
+}
+
+/* ---- joint transform ----------------------------------------------------------------- */
+/* Rt and p of body i at joint position q, from the constants cached in K. */
+static inline void joint_xform(const ffwd_real *K, int32_t type, ffwd_real q, ffwd_real *R, ffwd_real *p)
+{
+    int k;
+    if (type == FFWD_REVOLUTE) {
+        ffwd_real s, c;
+        ffwd_sincos_(q, &s, &c);
+        for (k = 0; k < 9; k++)
+            R[k] = K[k] + c * K[9 + k] + s * K[18 + k];
+        p[0] = K[27]; p[1] = K[28]; p[2] = K[29];
+    } else {
+        for (k = 0; k < 9; k++)
+            R[k] = K[k];
+        /* prismatic: K[9..11] = pos, K[12..14] = rot * axis */
+        p[0] = K[9] + q * K[12];
+        p[1] = K[10] + q * K[13];
+        p[2] = K[11] + q * K[14];
+    }
+}
+
+/* ---- spatial algebra ------------------------------------------------------------------ */
+/* motion parent -> child: o = X m */
+static inline void xm_apply(const ffwd_real *R, const ffwd_real *p, const ffwd_real *mv, ffwd_real *o)
+{
+    ffwd_real t[3];
+    v3_cross(mv, p, t);
+    t[0] += mv[3]; t[1] += mv[4]; t[2] += mv[5];
+    m3_tmul(R, mv, o);
+    m3_tmul(R, t, o + 3);
+}
+
+/* force child -> parent: o = X^T f (o may alias nothing in f) */
+static inline void xf_apply_t(const ffwd_real *R, const ffwd_real *p, const ffwd_real *f, ffwd_real *o)
+{
+    ffwd_real t[3];
+    m3_mul(R, f + 3, o + 3);
+    m3_mul(R, f, o);
+    v3_cross(p, o + 3, t);
+    o[0] += t[0]; o[1] += t[1]; o[2] += t[2];
+}
+
+/* force child -> parent, accumulated: acc += X^T f */
+static inline void xf_add_t(const ffwd_real *R, const ffwd_real *p, const ffwd_real *f, ffwd_real *acc)
+{
+    ffwd_real o[6];
+    xf_apply_t(R, p, f, o);
+    acc[0] += o[0]; acc[1] += o[1]; acc[2] += o[2];
+    acc[3] += o[3]; acc[4] += o[4]; acc[5] += o[5];
+}
+
+/* o = I(th) x  for a rigid-body inertia */
+static inline void inertia_apply(const ffwd_real *th, const ffwd_real *x, ffwd_real *o)
+{
+    const ffwd_real *h = th + 1;
+    ffwd_real a[3], b[3];
+    v3_cross(h, x + 3, a);
+    v3_cross(x, h, b);
+    o[0] = th[4] * x[0] + th[5] * x[1] + th[6] * x[2] + a[0];
+    o[1] = th[5] * x[0] + th[7] * x[1] + th[8] * x[2] + a[1];
+    o[2] = th[6] * x[0] + th[8] * x[1] + th[9] * x[2] + a[2];
+    o[3] = th[0] * x[3] + b[0];
+    o[4] = th[0] * x[4] + b[1];
+    o[5] = th[0] * x[5] + b[2];
+}
+
+/* o = v x* f  (spatial force cross product) */
+static inline void crf(const ffwd_real *v, const ffwd_real *f, ffwd_real *o)
+{
+    ffwd_real a[3], b[3];
+    v3_cross(v, f, a);
+    v3_cross(v + 3, f + 3, b);
+    o[0] = a[0] + b[0]; o[1] = a[1] + b[1]; o[2] = a[2] + b[2];
+    v3_cross(v, f + 3, o + 3);
+}
+
+/* Rigid-body parameters th (child frame) expressed in the parent frame (R, p). */
+static inline void params_to_parent(const ffwd_real *R, const ffwd_real *p, const ffwd_real *th, ffwd_real *o)
+{
+    ffwd_real I[9], RI[9], J[9], hR[3], ph, pp;
+    const ffwd_real m = th[0];
+    int i, j;
+    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
+    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
+    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
+    m3_mm(R, I, RI);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            J[3 * i + j] = RI[3 * i] * R[3 * j] + RI[3 * i + 1] * R[3 * j + 1] + RI[3 * i + 2] * R[3 * j + 2];
+    m3_mul(R, th + 1, hR);
+    ph = FR(2) * v3_dot(p, hR);
+    pp = m * v3_dot(p, p);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            J[3 * i + j] -= p[i] * hR[j] + hR[i] * p[j] + m * p[i] * p[j];
+    J[0] += ph + pp; J[4] += ph + pp; J[8] += ph + pp;
+    o[0] = m;
+    o[1] = hR[0] + m * p[0];
+    o[2] = hR[1] + m * p[1];
+    o[3] = hR[2] + m * p[2];
+    o[4] = J[0]; o[5] = J[1]; o[6] = J[2];
+    o[7] = J[4]; o[8] = J[5]; o[9] = J[8];
+}
+
+/* c ? a : b without a branch (bit blend), for data-independent timing */
+#ifdef FFWD_SINGLE
+typedef uint32_t ffwd_bits_;
+#else
+typedef uint64_t ffwd_bits_;
+#endif
+static inline ffwd_real select_real(int c, ffwd_real a, ffwd_real b)
+{
+    ffwd_bits_ ua, ub, mask = (ffwd_bits_)0 - (ffwd_bits_)(c != 0);
+    ffwd_real r;
+    memcpy(&ua, &a, sizeof ua);
+    memcpy(&ub, &b, sizeof ub);
+    ua = (ua & mask) | (ub & ~mask);
+    memcpy(&r, &ua, sizeof r);
+    return r;
+}
+
+/* clamp to [-1, 1], branch-free */
+static inline ffwd_real clamp1(ffwd_real x)
+{
+    x = select_real(x > FR(1), FR(1), x);
+    return select_real(x < FR(-1), FR(-1), x);
+}
+
+/* drive friction torque at velocity qd */
+static inline ffwd_real friction_torque(const ffwd_joint *J, ffwd_real qd)
+{
+    return J->viscous * qd + J->coulomb * clamp1(qd / J->coulomb_band);
+}
+
+#endif /* FFWD_SPATIAL_H */
