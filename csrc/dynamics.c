@@ -1,8 +1,12 @@
 /* dynamics.c - inverse dynamics (recursive Newton-Euler), gravity torque, torque parts,
- * mass matrix (composite rigid body) and forward dynamics (articulated body), all in
- * Featherstone's spatial-vector form on (R, p) transforms (see spatial.h).
+ * mass matrix (composite rigid body) and forward dynamics (articulated body) on (R, p)
+ * transforms (see spatial.h). Inverse dynamics and the torque parts use the 3-D vector
+ * form of Newton-Euler (angular velocity and acceleration, linear acceleration of the
+ * frame origin: no linear velocity is needed), the body forces computed in the outward
+ * pass; the mass matrix and forward dynamics use Featherstone's spatial-vector form.
  *
- * Per-body state lives in the work scratch: B(i) = Rt[9] p[3] v[6] a[6] f[6].
+ * Per-body state lives in the work scratch: B(i) = Rt[9] p[3] then 18 numbers whose
+ * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n).
  */
 #include "spatial.h"
 
@@ -13,10 +17,30 @@
 /* Rt, p of every body at q */
 void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
+    ffwd_real *qb = w->scratch + FFWD_OFF_TRIG, *sb = qb + FFWD_TRIG_STRIDE, *cb = sb + FFWD_TRIG_STRIDE;
+    const uint32_t n = m->dof;
     uint32_t i;
-    for (i = 0; i < m->dof; i++) {
-        ffwd_real *B = BODY(w, i);
-        joint_xform(KONST(w, i), m->joint[i].type, q[i], B, B + 9);
+    int k;
+    for (i = 0; i < n; i++)
+        qb[i] = q[i];
+    qb[n] = FR(0);
+    ffwd_sincos_pairs_(qb, sb, cb, (n + 1u) / 2u);
+    for (i = 0; i < n; i++) {
+        const ffwd_real *K = KONST(w, i);
+        ffwd_real *R = BODY(w, i), *p = R + 9;
+        if (m->joint[i].type == FFWD_REVOLUTE) {
+            const ffwd_real s = sb[i], c = cb[i];
+            for (k = 0; k < 9; k++)
+                R[k] = K[k] + c * K[9 + k] + s * K[18 + k];
+            p[0] = K[27]; p[1] = K[28]; p[2] = K[29];
+        } else {
+            const ffwd_real x = q[i];
+            for (k = 0; k < 9; k++)
+                R[k] = K[k];
+            p[0] = K[9] + x * K[12];
+            p[1] = K[10] + x * K[13];
+            p[2] = K[11] + x * K[14];
+        }
     }
 }
 
@@ -71,25 +95,90 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
     }
 }
 
-/* Rigid-body Newton-Euler: tau = S^T f after the forward pass_va. */
-static void pass_forces(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, ffwd_real *tau)
+/* Body force of a rigid body from the angular velocity w, angular acceleration wd and
+ * linear acceleration al of its frame origin (all in its frame): with h = m c and Io the
+ * inertia about the origin,  f = m al + wd x h + w x (w x h),  n = Io wd + w x (Io w) + h x al. */
+static inline void body_force(const ffwd_real *th, const ffwd_real *W, const ffwd_real *WD,
+                              const ffwd_real *AL, ffwd_real *F, ffwd_real *N)
 {
+    const ffwd_real *h = th + 1;
+    ffwd_real Iw[3], t[3], u[3], r[3];
+    Iw[0] = th[4] * W[0] + th[5] * W[1] + th[6] * W[2];
+    Iw[1] = th[5] * W[0] + th[7] * W[1] + th[8] * W[2];
+    Iw[2] = th[6] * W[0] + th[8] * W[1] + th[9] * W[2];
+    v3_cross(W, Iw, t);
+    v3_cross(h, AL, u);
+    N[0] = th[4] * WD[0] + th[5] * WD[1] + th[6] * WD[2] + t[0] + u[0];
+    N[1] = th[5] * WD[0] + th[7] * WD[1] + th[8] * WD[2] + t[1] + u[1];
+    N[2] = th[6] * WD[0] + th[8] * WD[1] + th[9] * WD[2] + t[2] + u[2];
+    v3_cross(W, h, t);
+    v3_cross(W, t, u);
+    v3_cross(WD, h, r);
+    F[0] = th[0] * AL[0] + r[0] + u[0];
+    F[1] = th[0] * AL[1] + r[1] + u[1];
+    F[2] = th[0] * AL[2] + r[2] + u[2];
+}
+
+/* Recursive Newton-Euler in 3-D vector form (angular velocity, angular acceleration,
+ * linear acceleration of each frame origin; base acceleration -g), the body forces
+ * computed in the same outward pass, then summed inward. Needs transforms().
+ * B(i): w at 12, wd at 15, al at 18, f at 24, n at 27. */
+static void id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
+                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau)
+{
+    const ffwd_real zero[3] = { 0, 0, 0 };
+    ffwd_real a0[3];
+    const uint32_t n = m->dof;
     uint32_t i;
-    for (i = 0; i < m->dof; i++) {
-        ffwd_real *B = BODY(w, i), Iv[6], c[6];
-        const ffwd_real *th = body_params(m, tp, i);
-        inertia_apply(th, B + 12, Iv);
-        inertia_apply(th, B + 18, B + 24);
-        crf(B + 12, Iv, c);
-        B[24] += c[0]; B[25] += c[1]; B[26] += c[2];
-        B[27] += c[3]; B[28] += c[4]; B[29] += c[5];
-    }
-    for (i = m->dof; i-- > 0u;) {
+    a0[0] = -g[0]; a0[1] = -g[1]; a0[2] = -g[2];
+    for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         ffwd_real *B = BODY(w, i);
-        tau[i] = s_dot(J, B + 24);
-        if (J->parent >= 0)
-            xf_add_t(B, B + 9, B + 24, BODY(w, J->parent) + 24);
+        const ffwd_real *R = B, *p = B + 9, *ax = J->axis;
+        const ffwd_real *wp = zero, *wdp = zero, *ap = a0;
+        ffwd_real t[3], u[3], x[3], wr[3], sd[3], W[3], WD[3], AL[3], F[3], N[3];
+        const ffwd_real dq = qd[i], ddq = qdd[i];
+        int k;
+        if (J->parent >= 0) {
+            const ffwd_real *P = BODY(w, J->parent);
+            wp = P + 12; wdp = P + 15; ap = P + 18;
+        }
+        v3_cross(wp, p, u);
+        v3_cross(wp, u, t);
+        v3_cross(wdp, p, u);
+        x[0] = ap[0] + u[0] + t[0]; x[1] = ap[1] + u[1] + t[1]; x[2] = ap[2] + u[2] + t[2];
+        m3_tmul(R, x, AL);
+        m3_tmul(R, wp, wr);
+        m3_tmul(R, wdp, WD);
+        sd[0] = ax[0] * dq; sd[1] = ax[1] * dq; sd[2] = ax[2] * dq;
+        v3_cross(wr, sd, t);
+        if (J->type == FFWD_REVOLUTE) {
+            W[0] = wr[0] + sd[0]; W[1] = wr[1] + sd[1]; W[2] = wr[2] + sd[2];
+            WD[0] += ax[0] * ddq + t[0]; WD[1] += ax[1] * ddq + t[1]; WD[2] += ax[2] * ddq + t[2];
+        } else {
+            W[0] = wr[0]; W[1] = wr[1]; W[2] = wr[2];
+            AL[0] += ax[0] * ddq + FR(2) * t[0];
+            AL[1] += ax[1] * ddq + FR(2) * t[1];
+            AL[2] += ax[2] * ddq + FR(2) * t[2];
+        }
+        body_force(body_params(m, tp, i), W, WD, AL, F, N);
+        for (k = 0; k < 3; k++) {
+            B[12 + k] = W[k]; B[15 + k] = WD[k]; B[18 + k] = AL[k];
+            B[24 + k] = F[k]; B[27 + k] = N[k];
+        }
+    }
+    for (i = n; i-- > 0u;) {
+        const ffwd_joint *J = &m->joint[i];
+        const ffwd_real *B = BODY(w, i), *F = B + 24, *N = B + 27;
+        tau[i] = v3_dot(J->axis, J->type == FFWD_REVOLUTE ? N : F);
+        if (J->parent >= 0) {
+            ffwd_real *P = BODY(w, J->parent), rf[3], rn[3], t[3];
+            m3_mul(B, F, rf);
+            m3_mul(B, N, rn);
+            v3_cross(B + 9, rf, t);
+            P[24] += rf[0]; P[25] += rf[1]; P[26] += rf[2];
+            P[27] += rn[0] + t[0]; P[28] += rn[1] + t[1]; P[29] += rn[2] + t[2];
+        }
     }
 }
 
@@ -102,14 +191,15 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const ffwd_real *tp;
     ffwd_status st;
     uint32_t i;
-    in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
-    st = ffwd_enter_(m, w, in, 3, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+        in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
+        st = ffwd_enter_(m, w, in, 3, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     tp = ffwd_load_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
-    ffwd_pass_va_(m, w, qd, qdd, m->gravity);
-    pass_forces(m, w, tp, tau);
+    id_pass(m, w, tp, qd, qdd, m->gravity, tau);
     for (i = 0; i < m->dof; i++)
         tau[i] += m->joint[i].armature * qdd[i] + friction_torque(&m->joint[i], qd[i]);
     return FFWD_OK;
@@ -156,10 +246,12 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
-    in[0] = q; out[0] = tau;
-    st = ffwd_enter_(m, w, in, 1, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+        in[0] = q; out[0] = tau;
+        st = ffwd_enter_(m, w, in, 1, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     ffwd_transforms_(m, w, q);
     gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau);
     return FFWD_OK;
@@ -174,19 +266,22 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     ffwd_real *out[4];
     const int shape[4] = { FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N };
     const ffwd_real *tp;
+    ffwd_real *zn;
     ffwd_status st;
     uint32_t i;
-    in[0] = q; in[1] = qd; in[2] = qdd;
-    out[0] = inertial; out[1] = velocity; out[2] = gravity; out[3] = friction;
-    st = ffwd_enter_(m, w, in, 3, out, shape, 4);
-    if (st != FFWD_OK)
-        return st;
+    if (!(qd != NULL && qdd != NULL && inertial != NULL && velocity != NULL && gravity != NULL && friction != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+        in[0] = q; in[1] = qd; in[2] = qdd;
+        out[0] = inertial; out[1] = velocity; out[2] = gravity; out[3] = friction;
+        st = ffwd_enter_(m, w, in, 3, out, shape, 4);
+        if (st != FFWD_OK)
+            return st;
+    }
     tp = ffwd_load_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
-    ffwd_pass_va_(m, w, NULL, qdd, zero3);
-    pass_forces(m, w, tp, inertial);
-    ffwd_pass_va_(m, w, qd, NULL, zero3);
-    pass_forces(m, w, tp, velocity);
+    zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
+    ffwd_zero_(zn, m->dof);
+    id_pass(m, w, tp, zn, qdd, zero3, inertial);
+    id_pass(m, w, tp, qd, zn, zero3, velocity);
     gravity_pass(m, w, tp, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
@@ -203,10 +298,12 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
     const ffwd_real *tp;
     ffwd_status st;
     uint32_t i, n, k;
-    in[0] = q; out[0] = M;
-    st = ffwd_enter_(m, w, in, 1, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+        in[0] = q; out[0] = M;
+        st = ffwd_enter_(m, w, in, 1, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     n = m->dof;
     tp = ffwd_load_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
@@ -322,10 +419,12 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     ffwd_status st;
     uint32_t i, n;
     int k, ok = 1;
-    in[0] = q; in[1] = qd; in[2] = tau; out[0] = qdd;
-    st = ffwd_enter_(m, w, in, 3, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(qd != NULL && tau != NULL && qdd != NULL && ffwd_ready_(m, w, q, qd, tau))) {
+        in[0] = q; in[1] = qd; in[2] = tau; out[0] = qdd;
+        st = ffwd_enter_(m, w, in, 3, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     n = m->dof;
     tp = ffwd_load_tool_body_(m, w);
     ffwd_transforms_(m, w, q);

@@ -3,7 +3,6 @@
 
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
 #define AUX(w, i) ((w)->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)(i))
-#define KONST(w, i) ((w)->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)(i))
 
 /* World pose of every joint frame: AUX(i) = Rw[9] pw[3]; tool pose into Rt, pt. */
 static void world_poses(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *Rt, ffwd_real *pt)
@@ -11,10 +10,10 @@ static void world_poses(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
     uint32_t i;
     const ffwd_real *W;
     ffwd_real t[3];
+    ffwd_transforms_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         ffwd_real *B = BODY(w, i), *A = AUX(w, i);
         int32_t par = m->joint[i].parent;
-        joint_xform(KONST(w, i), m->joint[i].type, q[i], B, B + 9);
         if (par >= 0) {
             const ffwd_real *P = AUX(w, par);
             m3_mm(P, B, A);
@@ -40,10 +39,12 @@ ffwd_status ffwd_tool_pose(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     ffwd_real R[9], p[3];
     ffwd_status st;
     int r;
-    in[0] = q; out[0] = T;
-    st = ffwd_enter_(m, w, in, 1, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(T != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+        in[0] = q; out[0] = T;
+        st = ffwd_enter_(m, w, in, 1, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     world_poses(m, w, q, R, p);
     for (r = 0; r < 3; r++) {
         T[4 * r] = R[3 * r]; T[4 * r + 1] = R[3 * r + 1]; T[4 * r + 2] = R[3 * r + 2];
@@ -63,10 +64,12 @@ ffwd_status ffwd_tool_jacobian(const ffwd_model *m, ffwd_work *w, const ffwd_rea
     ffwd_status st;
     uint32_t n, step;
     int32_t j;
-    in[0] = q; out[0] = J;
-    st = ffwd_enter_(m, w, in, 1, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(J != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+        in[0] = q; out[0] = J;
+        st = ffwd_enter_(m, w, in, 1, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     n = m->dof;
     world_poses(m, w, q, R, p);
     ffwd_zero_(J, 6u * n);

@@ -11,8 +11,6 @@
 #define REL_TOL FR(1e-10)
 #endif
 
-#define STAMP_MAGIC 0x66667764u
-
 const char *ffwd_status_str(ffwd_status s)
 {
     switch (s) {
@@ -94,7 +92,10 @@ static int pos_def3(const ffwd_real *S)
 
 /* 10 inertial parameters of a rigid body: mass > 0, inertia about the centre of mass
  * positive definite, principal moments satisfying the triangle inequality. */
-static int body_ok(const ffwd_real *th)
+/* A body: mass > 0, inertia about the COM positive definite (positive semidefinite
+ * when `point_ok`, e.g. a payload given as a point mass) and satisfying the triangle
+ * inequality. */
+static int body_ok(const ffwd_real *th, int point_ok)
 {
     ffwd_real m = th[0], C[9], S[9], tr, eps;
     const ffwd_real *h = th + 1;
@@ -110,6 +111,13 @@ static int body_ok(const ffwd_real *th)
     C[1] = C[3] = th[5] + h[0] * h[1] / m;
     C[2] = C[6] = th[6] + h[0] * h[2] / m;
     C[5] = C[7] = th[8] + h[1] * h[2] / m;
+    if (point_ok) {
+        /* rounding of Io - m c c terms: slack relative to the inertia about the origin */
+        eps = REL_TOL * (th[4] + th[7] + th[9]) + FR(1e-30);
+        C[0] += eps;
+        C[4] += eps;
+        C[8] += eps;
+    }
     if (!pos_def3(C))
         return 0;
     /* triangle inequality of the principal moments <=> tr(Ic)/2 * 1 - Ic is positive
@@ -151,7 +159,7 @@ static int joint_ok(const ffwd_joint *J, int32_t index)
     a2 = v3_dot(J->axis, J->axis);
     if (absr(a2 - FR(1)) > AXIS_TOL)
         return 0;
-    if (!body_ok(J->inertia))
+    if (!body_ok(J->inertia, 0))
         return 0;
     if (!(J->armature >= FR(0)) || !(J->viscous >= FR(0)) || !(J->coulomb >= FR(0))
         || !(J->coulomb_band > FR(0)))
@@ -178,7 +186,7 @@ int ffwd_payload_params_ok_(const ffwd_real *th)
 {
     if (!ffwd_finite_(th, 10))
         return 0;
-    return all_zero(th, 10) || body_ok(th);
+    return all_zero(th, 10) || body_ok(th, 1);
 }
 
 ffwd_status ffwd_model_check(const ffwd_model *m)
@@ -202,21 +210,12 @@ ffwd_status ffwd_model_check(const ffwd_model *m)
     return FFWD_OK;
 }
 
-static uint32_t stamp_of(const ffwd_model *m)
-{
-    uintptr_t a = (uintptr_t)m;
-    uint32_t s = STAMP_MAGIC ^ (m->dof * 0x9e3779b9u);
-    s ^= (uint32_t)(a & 0xffffffffu);
-    s ^= (uint32_t)((a >> 16) >> 16);
-    return s;
-}
-
 int ffwd_bound_(const ffwd_model *m, const ffwd_work *w)
 {
-    return w->model == m && w->stamp == stamp_of(m) && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
+    return w->model == m && w->stamp == ffwd_stamp_of_(m) && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
 }
 
-/* Per-joint constants of the joint transform (see joint_xform in spatial.h). */
+/* Per-joint constants of the joint transform (see ffwd_transforms_ in dynamics.c). */
 static void cache_joint(const ffwd_joint *J, ffwd_real *K)
 {
     const ffwd_real *a = J->axis, *r = J->rot;
@@ -263,7 +262,7 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
     for (i = 0; i < m->dof; i++)
         cache_joint(&m->joint[i], w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
     w->model = m;
-    w->stamp = stamp_of(m);
+    w->stamp = ffwd_stamp_of_(m);
     return FFWD_OK;
 }
 

@@ -58,10 +58,12 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     ffwd_real *A = w != NULL ? w->scratch + FFWD_OFF_TMP : NULL;
     ffwd_status st;
     uint32_t n, cols, k;
-    in[0] = q; in[1] = qd; in[2] = qdd; out[0] = Y;
-    st = ffwd_enter_(m, w, in, 3, out, shape, 1);
-    if (st != FFWD_OK)
-        return st;
+    if (!(qd != NULL && qdd != NULL && Y != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+        in[0] = q; in[1] = qd; in[2] = qdd; out[0] = Y;
+        st = ffwd_enter_(m, w, in, 3, out, shape, 1);
+        if (st != FFWD_OK)
+            return st;
+    }
     n = m->dof;
     cols = 13u * n;
     ffwd_zero_(Y, n * cols);

@@ -21,7 +21,8 @@
 
 /* ---- work scratch layout (offsets into ffwd_work.scratch) ----------------------- */
 /* per-model constants cached by ffwd_work_init, per joint: Rt = C0 + cos q * CA + sin q * CB,
- * p = pos + q * RA */
+ * p = pos (revolute); Rt = rot, p = pos + q * rot * axis (prismatic). ffwd_transforms_ in
+ * dynamics.c evaluates them for every joint (sin/cos of all joints first, two at a time). */
 #define FFWD_K_STRIDE 30
 #define FFWD_OFF_K      0
 /* per-call per-body state: Rt[9] p[3] v[6] a[6] f[6] */
@@ -33,13 +34,18 @@
 /* effective payload-lumped parameters of the tool_parent body, and a 6x10 temp */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
-#define FFWD_LAYOUT_END (FFWD_OFF_TMP + 64)
+/* q (zero padded to an even count), sin q, cos q for the joint transforms */
+#define FFWD_TRIG_STRIDE (FFWD_MAX_DOF + 1)
+#define FFWD_OFF_TRIG   (FFWD_OFF_TMP + 64)
+#define FFWD_LAYOUT_END (FFWD_OFF_TRIG + 3 * FFWD_TRIG_STRIDE)
 
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
 /* sin and cos of x, bounded time, no libm (trig.c). */
 void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c);
+/* the same for x[0 .. 2*npairs), two at a time (trig.c); s, c must not alias x */
+void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t npairs);
 /* 1 when (m, w) are bound by ffwd_work_init (model.c). */
 int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
@@ -64,6 +70,61 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
                    const ffwd_real *g);
 /* x[0..n) = 0; x may be NULL. */
 void ffwd_zero_(ffwd_real *x, uint32_t n);
+
+/* the stamp ffwd_work_init leaves in a work bound to m */
+static inline uint32_t ffwd_stamp_of_(const ffwd_model *m)
+{
+    uintptr_t a = (uintptr_t)m;
+    uint32_t s = 0x66667764u ^ (m->dof * 0x9e3779b9u);
+    s ^= (uint32_t)(a & 0xffffffffu);
+    s ^= (uint32_t)((a >> 16) >> 16);
+    return s;
+}
+
+/* Nonzero when some x[i] is Inf or NaN, from the bits: the exponent field plus one
+ * carries into the sign bit exactly when the exponent is all ones. */
+#ifdef FFWD_SINGLE
+#define FFWD_EXP_MASK_ 0x7f800000u
+#define FFWD_EXP_ONE_  0x00800000u
+#define FFWD_TOP_BIT_  31u
+#else
+#define FFWD_EXP_MASK_ 0x7ff0000000000000u
+#define FFWD_EXP_ONE_  0x0010000000000000u
+#define FFWD_TOP_BIT_  63u
+#endif
+
+/* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, and the
+ * inputs a (and b, c when not NULL) finite over dof entries. When it fails the caller
+ * runs ffwd_enter_, which finds the reason and zeroes the outputs. */
+static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a,
+                              const ffwd_real *b, const ffwd_real *c)
+{
+    uint32_t i, n;
+    uint64_t acc = 0u;
+    if (m == NULL || w == NULL || a == NULL || w->model != m || w->stamp != ffwd_stamp_of_(m))
+        return 0;
+    n = m->dof;
+    if (n < 1u || n > (uint32_t)FFWD_MAX_DOF)
+        return 0;
+    for (i = 0; i < n; i++) {
+#ifdef FFWD_SINGLE
+        uint32_t u;
+#else
+        uint64_t u;
+#endif
+        memcpy(&u, a + i, sizeof u);
+        acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);
+        if (b != NULL) {
+            memcpy(&u, b + i, sizeof u);
+            acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);
+        }
+        if (c != NULL) {
+            memcpy(&u, c + i, sizeof u);
+            acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);
+        }
+    }
+    return ((acc >> FFWD_TOP_BIT_) & 1u) == 0u;
+}
 
 /* ---- small 3-D helpers ------------------------------------------------------------ */
 static inline void v3_cross(const ffwd_real *a, const ffwd_real *b, ffwd_real *o)
@@ -104,27 +165,6 @@ static inline void m3_mm(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
     for (i = 0; i < 3; i++)
         for (j = 0; j < 3; j++)
             O[3 * i + j] = A[3 * i] * B[j] + A[3 * i + 1] * B[3 + j] + A[3 * i + 2] * B[6 + j];
-}
-
-/* ---- joint transform ----------------------------------------------------------------- */
-/* Rt and p of body i at joint position q, from the constants cached in K. */
-static inline void joint_xform(const ffwd_real *K, int32_t type, ffwd_real q, ffwd_real *R, ffwd_real *p)
-{
-    int k;
-    if (type == FFWD_REVOLUTE) {
-        ffwd_real s, c;
-        ffwd_sincos_(q, &s, &c);
-        for (k = 0; k < 9; k++)
-            R[k] = K[k] + c * K[9 + k] + s * K[18 + k];
-        p[0] = K[27]; p[1] = K[28]; p[2] = K[29];
-    } else {
-        for (k = 0; k < 9; k++)
-            R[k] = K[k];
-        /* prismatic: K[9..11] = pos, K[12..14] = rot * axis */
-        p[0] = K[9] + q * K[12];
-        p[1] = K[10] + q * K[13];
-        p[2] = K[11] + q * K[14];
-    }
 }
 
 /* ---- spatial algebra ------------------------------------------------------------------ */

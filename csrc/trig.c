@@ -97,3 +97,67 @@ void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c)
     *s = tab[n & 1u] * (FR(1) - FR(2) * (ffwd_real)((n >> 1) & 1u));
     *c = tab[(n + 1u) & 1u] * (FR(1) - FR(2) * (ffwd_real)(((n + 1u) >> 1) & 1u));
 }
+
+/* The same computation as ffwd_sincos_ (bit for bit) for x[0 .. 2*npairs), written two
+ * lanes at a time so that the compiler can keep both lanes in one vector register:
+ * k is read from the bits of the rounded value instead of a volatile round trip (no
+ * float-to-integer conversion, so no undefined behaviour for huge x), and the quadrant
+ * is applied with bit masks (swap s/c, flip the sign bit) instead of a table. */
+#define LANES 2
+void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd_real *restrict c,
+                        uint32_t npairs)
+{
+    const ffwd_bits_ one = 1u, sign = one << (8u * sizeof(ffwd_real) - 1u);
+    uint32_t p;
+    for (p = 0; p < npairs; p++) {
+        ffwd_real xv[LANES], kv[LANES], k[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
+        ffwd_real lo[LANES], rh[LANES], s2[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
+        ffwd_real hz[LANES], wv[LANES];
+        ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
+        int l;
+        for (l = 0; l < LANES; l++)
+            xv[l] = x[LANES * p + (uint32_t)l];
+        for (l = 0; l < LANES; l++)
+            kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
+        memcpy(b, kv, sizeof b);
+        for (l = 0; l < LANES; l++)
+#ifdef FFWD_SINGLE
+            k[l] = (ffwd_real)((int32_t)(b[l] & 0x7fffffu) - (int32_t)0x400000);
+#else
+            k[l] = (ffwd_real)(int32_t)(uint32_t)b[l];
+#endif
+        for (l = 0; l < LANES; l++) {
+            t1[l] = xv[l] - k[l] * P1;
+            hi[l] = t1[l] - k[l] * P2;
+            bb[l] = hi[l] - t1[l];
+            e1[l] = (t1[l] - (hi[l] - bb[l])) + (-k[l] * P2 - bb[l]);
+#ifdef FFWD_SINGLE
+            {
+                ffwd_real h2 = hi[l] - k[l] * P3, b2 = h2 - hi[l];
+                ffwd_real e2 = (hi[l] - (h2 - b2)) + (-k[l] * P3 - b2);
+                lo[l] = (e1[l] + e2) - k[l] * P4;
+                hi[l] = h2;
+            }
+#else
+            lo[l] = (e1[l] - k[l] * P3) - k[l] * P4;
+#endif
+            rh[l] = hi[l] + lo[l];
+            s2[l] = rh[l] - hi[l];
+            rl[l] = (hi[l] - (rh[l] - s2[l])) + (lo[l] - s2[l]);
+            z[l] = rh[l] * rh[l];
+            sr[l] = rh[l] + (rh[l] * z[l] * sin_tail(z[l]) + rl[l] * (FR(1) - FR(0.5) * z[l]));
+            hz[l] = FR(0.5) * z[l];
+            wv[l] = FR(1) - hz[l];
+            cr[l] = wv[l] + ((((FR(1) - wv[l]) - hz[l]) + z[l] * z[l] * cos_tail(z[l])) - rh[l] * rl[l]);
+        }
+        memcpy(us, sr, sizeof us);
+        memcpy(uc, cr, sizeof uc);
+        for (l = 0; l < LANES; l++) {
+            sw[l] = (ffwd_bits_)0 - (b[l] & one);
+            os[l] = ((uc[l] & sw[l]) | (us[l] & ~sw[l])) ^ (((b[l] >> 1) & one) * sign);
+            oc[l] = ((us[l] & sw[l]) | (uc[l] & ~sw[l])) ^ ((((b[l] + one) >> 1) & one) * sign);
+        }
+        memcpy(s + LANES * p, os, sizeof os);
+        memcpy(c + LANES * p, oc, sizeof oc);
+    }
+}

@@ -344,8 +344,36 @@ static void test_singular(void)
     CHECK(ffwd_forward_dynamics(&m, &w, q, z, z, out) == FFWD_E_SINGULAR && all_zero(out, 3), "zero pivot not singular");
 }
 
+/* the batched sin/cos of the joint transforms equals the scalar ffwd_sincos_ bit for bit
+ * (internal functions, declared here) */
+void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c);
+void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t npairs);
+
+static void test_sincos_pairs(void)
+{
+    enum { NX = 512 };
+    static ffwd_real x[NX], s[NX], c[NX];
+    const double scale[4] = { 1e-3, 4.0, 100.0, 1e4 };
+    int i, bad = 0;
+    for (i = 0; i < NX; i++)
+        x[i] = (ffwd_real)srand1(scale[i % 4]);
+    for (i = 0; i < 40; i++)    /* multiples of pi/2 as the nearest ffwd_real */
+        x[i] = (ffwd_real)(1.5707963267948966 * (double)(i - 20));
+    x[41] = (ffwd_real)-0.0;
+    x[43] = (ffwd_real)0.0;
+    ffwd_sincos_pairs_(x, s, c, NX / 2);
+    for (i = 0; i < NX; i++) {
+        ffwd_real a, b;
+        ffwd_sincos_(x[i], &a, &b);
+        if (memcmp(&a, &s[i], sizeof a) != 0 || memcmp(&b, &c[i], sizeof b) != 0)
+            bad++;
+    }
+    CHECK(bad == 0, "batched sin/cos differs from ffwd_sincos_ at %d of %d points", bad, NX);
+}
+
 int main(void)
 {
+    test_sincos_pairs();
     test_singular();
     test_status();
     test_pendulum();
