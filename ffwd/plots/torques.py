@@ -9,17 +9,18 @@ def plot_torques(robot, t, tau, parts, path):
     for j, ax in enumerate(axes[:, 0]):
         joint = robot.joints[j]
         ax.plot(t, tau[:, j], color="k", lw=1.5, label="total")
-        ax.plot(t, parts.inertial[:, j], lw=0.9, label="inertial")
-        ax.plot(t, parts.velocity[:, j], lw=0.9, label="velocity product")
-        ax.plot(t, parts.gravity[:, j], lw=0.9, label="gravity")
-        ax.plot(t, parts.friction[:, j], lw=0.9, label="friction")
+        for name, label, color in (("inertial", "inertial", "tab:blue"),
+                                   ("velocity", "velocity product", "tab:orange"),
+                                   ("gravity", "gravity", "tab:green"),
+                                   ("friction", "friction", "tab:purple")):
+            ax.plot(t, getattr(parts, name)[:, j], lw=0.9, color=color, label=label)
         lim = joint.limits.torque
         if lim:
             for sign in (1, -1):
-                ax.axhline(sign * lim, color="r", ls="--", lw=1)
+                ax.axhline(sign * lim, color="tab:red", ls="--", lw=1)
             over = np.abs(tau[:, j]) > lim
             if over.any():
-                ax.fill_between(t, -lim, lim, where=over, color="r", alpha=0.15)
+                ax.fill_between(t, -lim, lim, where=over, color="tab:red", alpha=0.15)
         unit = "N m" if joint.type == "revolute" else "N"
         ax.set_ylabel(f"{joint.name} [{unit}]")
         ax.grid(alpha=0.3)
