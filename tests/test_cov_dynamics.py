@@ -31,9 +31,7 @@ def test_missing_core_says_what_to_do(robot, monkeypatch):
 
 @pytest.mark.parametrize("backend", [
     "c", "native",
-    pytest.param("twin", marks=pytest.mark.xfail(
-        strict=True, reason="an empty batch (0, n) gives shape (0,) on the twin, (0, n) on the "
-                            "C core: ffwd/dynamics.py _TwinCore._map")),
+    "twin",
 ])
 def test_empty_batch_keeps_its_shape(robot, backend, request):
     if backend == "c":

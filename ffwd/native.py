@@ -1,0 +1,358 @@
+"""Load any built libffwd shared library through cffi (ABI mode, no compiler needed).
+
+This runs the exact binary a controller links. The declarations come from the library's
+own header text (ffwd.h and the headers it includes), read at load time: comments and
+preprocessor lines are removed by a small preprocessor that knows the library's
+FFWD_MAX_DOF and sizeof(ffwd_real), which a minimal first load reads from
+ffwd_build_info(). The struct sizes cffi then computes are checked against the
+library's own numbers, so a header that does not match the binary is refused.
+
+    lib = ffwd.native.load_library()              # the libffwd.so shipped in the package
+    lib = ffwd.native.load_library("/x/libffwd.so", header="/x/include/ffwd.h")
+    core = lib.model(robot)                       # same methods as ffwd._core.Model
+"""
+from __future__ import annotations
+
+import importlib.util
+import os
+import re
+import sys
+import warnings
+
+import numpy as np
+
+__all__ = ["NativeError", "package_dir", "shipped_library", "shipped_include",
+           "load_library", "Library", "NativeModel", "declarations"]
+
+
+class NativeError(ValueError):
+    """A libffwd shared library cannot be used (missing, wrong header, wrong build)."""
+
+
+# ---- where the package's compiled files are ----------------------------------------------
+
+def package_dir():
+    """Directory holding the installed include/, lib/ and bin/ of the package.
+
+    With an editable install the Python files stay in the repository while the compiled
+    files are installed beside the extension module, so the extension's location is
+    tried first, then every entry of the package's __path__."""
+    candidates = []
+    try:
+        spec = importlib.util.find_spec("ffwd._core")
+    except (ImportError, ValueError):
+        spec = None
+    if spec is not None and spec.origin:
+        candidates.append(os.path.dirname(spec.origin))
+    pkg = sys.modules.get("ffwd")
+    candidates += list(getattr(pkg, "__path__", []) or [])
+    for d in candidates:
+        if os.path.isfile(os.path.join(d, "include", "ffwd.h")):
+            return os.path.abspath(d)
+    raise NativeError("the package's compiled files (include/ffwd.h, lib/) are not installed; "
+                      "build the package with `make install` or `pip install .`")
+
+
+def shipped_library():
+    """Path of the libffwd shared library installed inside the package."""
+    lib = os.path.join(package_dir(), "lib")
+    for name in ("libffwd.so", "libffwd.dylib", "ffwd.dll"):
+        path = os.path.join(lib, name)
+        if os.path.exists(path):
+            return path
+    raise NativeError(f"no libffwd shared library in {lib}")
+
+
+def shipped_include():
+    """The package's include directory (ffwd.h and the headers it includes)."""
+    return os.path.join(package_dir(), "include")
+
+
+# ---- header text -> cffi declarations -------------------------------------------------------
+
+_BUILD_INFO_CDEF = ("void ffwd_build_info(uint32_t *max_dof, uint32_t *real_size, "
+                    "uint32_t *model_size, uint32_t *work_size);")
+
+
+def _strip_comments(text):
+    text = re.sub(r"/\*.*?\*/", lambda m: "\n" * m.group(0).count("\n"), text, flags=re.S)
+    return re.sub(r"//[^\n]*", "", text)
+
+
+def _eval_condition(expr, macros):
+    """Value of an #if expression made of defined(X), numbers, !, &&, || and parentheses."""
+    text = expr
+    expr = re.sub(r"defined\s*\(\s*(\w+)\s*\)", lambda m: " 1 " if m.group(1) in macros else " 0 ", expr)
+    expr = re.sub(r"defined\s+(\w+)", lambda m: " 1 " if m.group(1) in macros else " 0 ", expr)
+    expr = re.sub(r"\b([A-Za-z_]\w*)\b", lambda m: f" {macros.get(m.group(1), '0') or '0'} ", expr)
+    expr = expr.replace("&&", " and ").replace("||", " or ")
+    expr = re.sub(r"!(?!=)", " not ", expr)
+    expr = re.sub(r"(\d+)[uUlL]+\b", r"\1", expr)
+    if not re.fullmatch(r"[\s\d()<>=!+\-*/%andotr]*", expr):
+        raise NativeError(f"header: cannot evaluate '#if {text.strip()}'")
+    try:   # only digits and operators are left
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", SyntaxWarning)
+            return bool(eval(expr, {"__builtins__": {}}, {}))
+    except Exception:   # e.g. '0(0)' from sizeof(int), or '=' for '=='
+        raise NativeError(f"header: cannot evaluate '#if {text.strip()}'") from None
+
+
+def _preprocess(path, macros, seen, out):
+    """Append the declarations of header `path` to out, following local #includes."""
+    path = os.path.abspath(path)
+    if path in seen:
+        return
+    seen.add(path)
+    try:
+        with open(path, encoding="utf-8") as f:
+            text = _strip_comments(f.read())
+    except OSError as exc:
+        raise NativeError(f"cannot read header {path}: {exc.strerror}") from None
+    text = text.replace("\\\n", " ")
+    stack = []   # per open #if: [this branch active, some branch already taken]
+    for line in text.split("\n"):
+        active = all(s[0] for s in stack)
+        m = re.match(r"\s*#\s*(\w+)\s*(.*)", line)
+        if not m:
+            if active:
+                out.append(line)
+            continue
+        word, rest = m.group(1), m.group(2).strip()
+        if word in ("if", "ifdef", "ifndef"):
+            if word == "ifdef":
+                value = rest in macros
+            elif word == "ifndef":
+                value = rest not in macros
+            else:
+                value = active and _eval_condition(rest, macros)
+            stack.append([value, value])
+        elif word == "elif":
+            taken = stack[-1][1]
+            value = (not taken) and _eval_condition(rest, macros)
+            stack[-1] = [value, taken or value]
+        elif word == "else":
+            stack[-1] = [not stack[-1][1], True]
+        elif word == "endif":
+            stack.pop()
+        elif not active:
+            continue
+        elif word == "define":
+            d = re.match(r"(\w+)(\(.*?\))?\s*(.*)", rest)
+            if d and not d.group(2):
+                macros.setdefault(d.group(1), d.group(3).strip())
+        elif word == "include":
+            inc = re.match(r'"([^"]+)"', rest)
+            if inc:   # <system> headers: cffi knows the stdint types
+                _preprocess(os.path.join(os.path.dirname(path), inc.group(1)), macros, seen, out)
+        # #error, #pragma, #undef: nothing to declare
+
+
+def _numeric_macros(macros):
+    """Object-like macros whose value is an integer expression, evaluated."""
+    values = {}
+    for _ in range(4):   # macros defined through other macros
+        for name, body in macros.items():
+            text = re.sub(r"\b([A-Za-z_]\w*)\b",
+                          lambda m: str(values[m.group(1)]) if m.group(1) in values else m.group(0),
+                          body)
+            text = re.sub(r"(\d+)[uUlL]+\b", r"\1", text)
+            if text and re.fullmatch(r"[\s\d()+\-*/%]+", text):
+                values[name] = int(eval(text.replace("/", "//"), {"__builtins__": {}}, {}))
+    return values
+
+
+def declarations(header, max_dof, real_size):
+    """cffi cdef text of `header` for a library built with FFWD_MAX_DOF = max_dof and
+    sizeof(ffwd_real) = real_size."""
+    if real_size not in (4, 8):
+        raise NativeError(f"sizeof(ffwd_real) = {real_size}: expected 4 (float) or 8 (double)")
+    macros = {"FFWD_MAX_DOF": str(int(max_dof)), "FFWD_NO_ATOMICS": "1"}
+    if real_size == 4:
+        macros["FFWD_SINGLE"] = "1"
+    out = []
+    _preprocess(header, macros, set(), out)
+    text = "\n".join(out)
+    values = _numeric_macros(macros)
+    # array sizes: substitute the numeric macros
+    text = re.sub(r"\b([A-Za-z_]\w*)\b",
+                  lambda m: str(values[m.group(1)]) if m.group(1) in values else m.group(0), text)
+    text = re.sub(r"\b(\d+)[uU]\b", r"\1", text)
+    text = re.sub(r"\bstatic\s+inline\b[^;{]*\{.*?\n\}", "", text, flags=re.S)
+    return text
+
+
+# ---- the library -------------------------------------------------------------------------
+
+_LIBRARIES = {}
+
+
+def load_library(path=None, header=None):
+    """Load libffwd at `path` (default: the one shipped in the package) with the
+    declarations of `header` (default: include/ffwd.h beside the library's lib/ dir,
+    else the package's). Cached per (path, header, modification time)."""
+    path = os.path.abspath(path if path is not None else shipped_library())
+    if not os.path.exists(path):
+        raise NativeError(f"{path}: no such library")
+    if header is None:
+        header = os.path.join(os.path.dirname(os.path.dirname(path)), "include", "ffwd.h")
+        if not os.path.exists(header):
+            header = os.path.join(shipped_include(), "ffwd.h")
+    header = os.path.abspath(header)
+    if not os.path.exists(header):
+        raise NativeError(f"{header}: no such header (the ffwd.h the library was built from)")
+    key = (path, header, os.path.getmtime(path), os.path.getmtime(header))
+    if key not in _LIBRARIES:
+        _LIBRARIES[key] = Library(path, header)
+    return _LIBRARIES[key]
+
+
+class Library:
+    """A loaded libffwd: `ffi`, `lib`, the build facts, and model(robot)."""
+
+    def __init__(self, path, header):
+        from cffi import FFI
+
+        self.path, self.header = path, header
+        probe = FFI()
+        probe.cdef(_BUILD_INFO_CDEF)
+        try:
+            lib0 = probe.dlopen(path)
+        except OSError as exc:
+            raise NativeError(f"{path}: cannot load: {exc}") from None
+        try:
+            info_fn = lib0.ffwd_build_info
+        except AttributeError:
+            raise NativeError(f"{path}: no ffwd_build_info symbol: not a libffwd library") from None
+        vals = probe.new("uint32_t[4]")
+        info_fn(vals + 0, vals + 1, vals + 2, vals + 3)
+        self.max_dof, self.real_size, model_size, work_size = (int(v) for v in vals)
+
+        self.ffi = FFI()
+        try:
+            self.ffi.cdef(declarations(header, self.max_dof, self.real_size))
+        except Exception as exc:  # cffi's CDefError and friends
+            raise NativeError(f"{header}: cannot declare for cffi: {exc}") from None
+        got = (self.ffi.sizeof("ffwd_model"), self.ffi.sizeof("ffwd_work"))
+        if got != (model_size, work_size):
+            raise NativeError(
+                f"{path}: build info does not match the header {header}: the library has "
+                f"sizeof(ffwd_model) = {model_size}, sizeof(ffwd_work) = {work_size} "
+                f"(FFWD_MAX_DOF {self.max_dof}, ffwd_real {self.real_size} bytes) but the "
+                f"header gives {got[0]} and {got[1]}")
+        self.lib = self.ffi.dlopen(path)
+        self.real = "float" if self.real_size == 4 else "double"
+        self.dtype = np.float32 if self.real_size == 4 else np.float64
+
+    def status_str(self, status):
+        return self.ffi.string(self.lib.ffwd_status_str(status)).decode()
+
+    def model(self, robot):
+        """A NativeModel of `robot` (same methods as ffwd._core.Model)."""
+        return NativeModel(self, robot)
+
+    def __repr__(self):
+        return (f"<libffwd {self.path}: FFWD_MAX_DOF {self.max_dof}, "
+                f"ffwd_real {self.real}>")
+
+
+class NativeModel:
+    """ffwd_model + ffwd_work + ffwd_payload_box in cffi memory; batches loop in Python."""
+
+    def __init__(self, library, robot):
+        from .pack import model_fields
+
+        self.library = library
+        ffi, lib = library.ffi, library.lib
+        f = model_fields(robot)
+        if f.dof > library.max_dof:
+            raise NativeError(f"{library.path}: robot has {f.dof} joints, the library was built "
+                              f"with FFWD_MAX_DOF {library.max_dof}")
+        self._m = m = ffi.new("ffwd_model *")
+        m.dof = f.dof
+        m.gravity = list(f.gravity)
+        for i in range(f.dof):
+            j = m.joint[i]
+            j.type = int(f.type[i])
+            j.parent = int(f.parent[i])
+            j.rot = list(f.rot[i])
+            j.pos = list(f.pos[i])
+            j.axis = list(f.axis[i])
+            j.inertia = list(f.inertia[i])
+            j.armature = f.armature[i]
+            j.viscous = f.viscous[i]
+            j.coulomb = f.coulomb[i]
+            j.coulomb_band = f.coulomb_band[i]
+            j.has_limits = int(f.has_limits[i])
+            (j.q_min, j.q_max, j.v_max, j.a_max, j.j_max, j.tau_max) = (float(v) for v in f.limits[i])
+        m.tool_parent = f.tool_parent
+        m.tool_rot = list(f.tool_rot)
+        m.tool_pos = list(f.tool_pos)
+        m.payload = list(f.payload)
+        self._w = ffi.new("ffwd_work *")
+        self._box = ffi.new("ffwd_payload_box *")
+        self._check(lib.ffwd_work_init(self._w, m), "model")
+        self._check(lib.ffwd_payload_init(self._box, m), "payload")
+        self._check(lib.ffwd_work_use_payload(self._w, self._box), "payload")
+        self.dof = f.dof
+
+    def _check(self, status, fn, sample=None):
+        if status != 0:
+            where = "" if sample is None else f" (sample {sample})"
+            raise ValueError(f"{fn}: {self.library.status_str(status)}{where}")
+
+    def _run(self, fn, cname, inputs, out_shapes):
+        ffi, lib = self.library.ffi, self.library.lib
+        n = self.dof
+        dt = self.library.dtype
+        arrays = [np.ascontiguousarray(a, dtype=dt) for a in inputs]
+        batched = arrays[0].ndim == 2
+        for a in arrays:
+            if a.shape[-1:] != (n,) or a.shape != arrays[0].shape or a.ndim not in (1, 2):
+                raise ValueError(f"{fn}: inputs must have shape (n,) or (N, n) with n = {n}")
+        N = arrays[0].shape[0] if batched else 1
+        outs = [np.zeros(((N,) if batched else ()) + s, dtype=dt) for s in out_shapes]
+        xs = [a.reshape(N, n) for a in arrays]
+        ys = [o.reshape(N, int(np.prod(s))) for o, s in zip(outs, out_shapes)]
+        func = getattr(lib, cname)
+        ctype = self.library.real + "[]"
+        for i in range(N):
+            args = [ffi.from_buffer(ctype, x[i]) for x in xs]
+            args += [ffi.from_buffer(ctype, y[i], require_writable=True) for y in ys]
+            self._check(func(self._m, self._w, *args), fn, i if batched else None)
+        outs = [o.astype(np.float64, copy=False) for o in outs]
+        return outs[0] if len(outs) == 1 else tuple(outs)
+
+    def inverse_dynamics(self, q, qd, qdd):
+        return self._run("inverse_dynamics", "ffwd_inverse_dynamics", (q, qd, qdd), [(self.dof,)])
+
+    def gravity(self, q):
+        return self._run("gravity", "ffwd_gravity_torque", (q,), [(self.dof,)])
+
+    def torque_parts(self, q, qd, qdd):
+        n = self.dof
+        return self._run("torque_parts", "ffwd_torque_parts", (q, qd, qdd), [(n,)] * 4)
+
+    def mass_matrix(self, q):
+        return self._run("mass_matrix", "ffwd_mass_matrix", (q,), [(self.dof, self.dof)])
+
+    def forward_dynamics(self, q, qd, tau):
+        return self._run("forward_dynamics", "ffwd_forward_dynamics", (q, qd, tau), [(self.dof,)])
+
+    def tool_pose(self, q):
+        return self._run("tool_pose", "ffwd_tool_pose", (q,), [(4, 4)])
+
+    def tool_jacobian(self, q):
+        return self._run("tool_jacobian", "ffwd_tool_jacobian", (q,), [(6, self.dof)])
+
+    def regressor(self, q, qd, qdd):
+        n = self.dof
+        return self._run("regressor", "ffwd_regressor", (q, qd, qdd), [(n, 13 * n)])
+
+    def set_payload(self, mass, com, inertia):
+        """mass, com (3,) in the tool frame, inertia about the com (xx, xy, xz, yy, yz, zz)."""
+        ffi = self.library.ffi
+        c = ffi.new(self.library.real + "[3]", [float(v) for v in com])
+        I = ffi.new(self.library.real + "[6]", [float(v) for v in inertia])
+        self._check(self.library.lib.ffwd_payload_set(self._box, self._m, float(mass), c, I),
+                    "set_payload")
