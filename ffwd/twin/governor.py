@@ -1,0 +1,505 @@
+"""The speed-override governor in plain Python: the readable twin of csrc/governor.c.
+
+Same algorithm, operation for operation, so the two agree to rounding (the
+equivalence test compares them). Notation along the path q(s):
+    kappa = ds/dt (the applied override), x = kappa^2, u = d kappa / dt
+    qd = q' kappa,  qdd = q'' x + q' u,
+    tau = a u + b x + c + viscous q' kappa + Coulomb,   a = M q', b = M q'' + C(q, q') q', c = g.
+Every limit is a row  alpha u + beta x + gamma kappa + delta <= 0, i.e. an interval of u
+for each kappa. Per sample (push): its rows and X, the largest admissible x there. Per
+cycle (step): a backward pass gives the safe curve Xs over the window (x = 0 at its last
+sample: the robot can always stop inside the window); u follows the command with
+bounded rate and rate of rate, clipped into the limits and under the safe curve.
+
+    g = GovernorTwin(robot, dt, ds, horizon, override_max, rate_max, rate_rate_max, margin)
+    g.push(q, dq, ddq, dddq); ...; g.finish()
+    out = g.step(override_cmd)    # dict: q, qd, qdd, tau, s, override, rate, ... flags
+"""
+import math
+
+import numpy as np
+
+from .rnea import gravity_torque, inverse_dynamics
+
+BIG = 1e30
+CAP = 1e15
+ALPHA_TOL = 1e-12
+REST_TOL = 1e-12
+
+AT_REST, DONE, CAPPED, JERK, CONFLICT, STARVED = 1, 2, 4, 8, 16, 32
+LIM_POSITION, LIM_VELOCITY, LIM_ACCELERATION, LIM_JERK, LIM_TORQUE = 1, 2, 4, 8, 16
+
+
+class GovernorError(ValueError):
+    """A governor call failed; `status` is the C status name, `fault` (index, joint, limit)."""
+
+    def __init__(self, status, why, fault=None):
+        self.status, self.fault = status, fault
+        super().__init__(why)
+
+
+def sqrt0(x):
+    return math.sqrt(x) if x > 0.0 else 0.0
+
+
+def sgn(a):
+    return 1.0 if a > 0.0 else (-1.0 if a < 0.0 else 0.0)
+
+
+def root1(A, B, C):
+    """Largest k >= 0 with A t^2 + B t + C <= 0 on all of [0, k], given C <= 0."""
+    disc = B * B - 4.0 * A * C
+    if C > 0.0:
+        return 0.0
+    if B > 0.0:
+        r = (-2.0 * C) / (B + sqrt0(disc)) if disc >= 0.0 else CAP
+    else:
+        r = (sqrt0(disc) - B) / (2.0 * A) if A > 0.0 else CAP
+    return min(r, CAP)
+
+
+def xroot(A, B, C):
+    """root1 squared: the largest x = k^2; without a square root when B = 0."""
+    if C > 0.0:
+        return 0.0
+    if B == 0.0:
+        return min(-C / A, BIG) if A > 0.0 else BIG
+    r = root1(A, B, C)
+    return r * r
+
+
+def hermite_basis(th):
+    """Quintic Hermite basis on [0, 1] for (p0, v0, w0, w1, v1, p1): rows value, d/dth, d2, d3."""
+    t2 = th * th
+    t3 = t2 * th
+    t4 = t3 * th
+    t5 = t4 * th
+    return (
+        (1.0 - 10.0 * t3 + 15.0 * t4 - 6.0 * t5, th - 6.0 * t3 + 8.0 * t4 - 3.0 * t5,
+         0.5 * t2 - 1.5 * t3 + 1.5 * t4 - 0.5 * t5, 0.5 * t3 - t4 + 0.5 * t5,
+         -4.0 * t3 + 7.0 * t4 - 3.0 * t5, 10.0 * t3 - 15.0 * t4 + 6.0 * t5),
+        (-30.0 * t2 + 60.0 * t3 - 30.0 * t4, 1.0 - 18.0 * t2 + 32.0 * t3 - 15.0 * t4,
+         th - 4.5 * t2 + 6.0 * t3 - 2.5 * t4, 1.5 * t2 - 4.0 * t3 + 2.5 * t4,
+         -12.0 * t2 + 28.0 * t3 - 15.0 * t4, 30.0 * t2 - 60.0 * t3 + 30.0 * t4),
+        (-60.0 * th + 180.0 * t2 - 120.0 * t3, -36.0 * th + 96.0 * t2 - 60.0 * t3,
+         1.0 - 9.0 * th + 18.0 * t2 - 10.0 * t3, 3.0 * th - 12.0 * t2 + 10.0 * t3,
+         -24.0 * th + 84.0 * t2 - 60.0 * t3, 60.0 * th - 180.0 * t2 + 120.0 * t3),
+        (-60.0 + 360.0 * th - 360.0 * t2, -36.0 + 192.0 * th - 180.0 * t2,
+         -9.0 + 36.0 * th - 30.0 * t2, 3.0 - 24.0 * th + 30.0 * t2,
+         -24.0 + 168.0 * th - 180.0 * t2, 60.0 - 360.0 * th + 360.0 * t2),
+    )
+
+
+class Slot:
+    """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
+    __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe")
+
+
+class GovernorTwin:
+    """The governor of csrc/governor.c in Python (see the module doc)."""
+
+    def __init__(self, robot, dt, ds, horizon, override_max, rate_max, rate_rate_max, margin,
+                 dynamics=None, max_horizon=256):
+        values = (dt, ds, override_max, rate_max, rate_rate_max, margin)
+        if not all(math.isfinite(float(v)) for v in values):
+            raise GovernorError("FFWD_E_NONFINITE", "governor: a configuration value is not finite")
+        if not (dt > 0 and ds > 0 and 2 <= horizon <= max_horizon and override_max > 0
+                and rate_max > 0 and rate_rate_max > 0 and 0 <= margin < 0.5):
+            raise GovernorError("FFWD_E_ARG", "governor: configuration out of range")
+        self.robot = robot
+        self.n = robot.dof
+        for j, joint in enumerate(robot.joints):
+            for name, bit in (("velocity", LIM_VELOCITY), ("acceleration", LIM_ACCELERATION),
+                              ("torque", LIM_TORQUE)):
+                if getattr(joint.limits, name) is None:
+                    raise GovernorError("FFWD_E_LIMIT", f"joint {joint.name!r}: no {name} limit",
+                                        (None, j, bit))
+        self.dt, self.ds, self.H = float(dt), float(ds), int(horizon)
+        self.override_max, self.U, self.V = float(override_max), float(rate_max), float(rate_rate_max)
+        self.margin = float(margin)
+        self.keep = 1.0 - self.margin
+        self.viscous = [j.drive.viscous for j in robot.joints]
+        self.coulomb = [j.drive.coulomb for j in robot.joints]
+        lim = [j.limits for j in robot.joints]
+        self.tau_max = [l.torque for l in lim]
+        self.v_max = [l.velocity for l in lim]
+        self.a_max = [l.acceleration for l in lim]
+        self.j_max = [l.jerk for l in lim]               # None: no jerk limit
+        self.pos = [l.position for l in lim]
+        # inverse dynamics and gravity: the twin's, or those of an ffwd.Dynamics
+        if dynamics is None:
+            self.inv = lambda q, v, a: inverse_dynamics(robot, q, v, a)
+            self.grav = lambda q: gravity_torque(robot, q)
+        else:
+            self.inv, self.grav = dynamics.inverse_dynamics, dynamics.gravity
+        self.band = [j.drive.coulomb_band for j in robot.joints]
+        self.window = []          # the window's slots, first sample first
+        self.base = 0
+        self.pushed = 0
+        self.finished = False
+        self.dirty = False
+        self.sigma = 0.0
+        self.kappa = 0.0
+        self.u = 0.0
+        reach = self.override_max * self.dt + 0.5 * self.U * self.dt * self.dt
+        self.pieces = 1
+        for p in range(1, self.H - 1):
+            if (p - 1) * self.ds < reach:
+                self.pieces = p + 1
+        self.pieces = min(self.pieces, self.H - 1)
+
+    # ---- samples
+    def room(self):
+        return 0 if self.finished else self.H - len(self.window)
+
+    def finish(self):
+        if not self.window:
+            raise GovernorError("FFWD_E_ARG", "finish: no sample pushed")
+        self.finished = True
+
+    def _fault(self, joint, limit, why):
+        raise GovernorError("FFWD_E_INFEASIBLE", why, (self.pushed, joint, limit))
+
+    def push(self, q, dq, ddq, dddq, parts=None):
+        """Append the next path sample; `parts` = (a, b, c) skips the dynamics calls."""
+        if self.finished or len(self.window) >= self.H:
+            raise GovernorError("FFWD_E_ARG", "push: the window is full or the path finished")
+        q, dq, ddq, dddq = (np.asarray(v, dtype=float) for v in (q, dq, ddq, dddq))
+        if not all(np.all(np.isfinite(v)) for v in (q, dq, ddq, dddq)):
+            raise GovernorError("FFWD_E_NONFINITE", "push: a sample value is not finite")
+        # the safe curve keeps twice the margin: a state on it can follow it between
+        # samples and still meet the limits reduced once (checked at every step)
+        n, ds, keep = self.n, self.ds, 1.0 - 2.0 * self.margin
+        for j in range(n):
+            if self.pos[j] is not None and (q[j] < self.pos[j][0] or q[j] > self.pos[j][1]):
+                self._fault(j, LIM_POSITION, "outside the position limits")
+        if parts is None:
+            # a = M q' = ID(q, 0, q') - g ; b = M q'' + C(q, q') q' = ID(q, q', q'') - g - friction(q')
+            g = np.asarray(self.grav(q), dtype=float)
+            a = np.asarray(self.inv(q, np.zeros(n), dq), dtype=float)
+            iner = np.asarray(self.inv(q, dq, ddq), dtype=float)
+            fr = [self.viscous[j] * dq[j] + self.coulomb[j] * min(max(dq[j] / self.band[j], -1.0), 1.0)
+                  for j in range(n)]
+            a = [float(a[j]) - float(g[j]) for j in range(n)]
+            b = [float(iner[j]) - float(g[j]) - float(fr[j]) for j in range(n)]
+            c = g
+        else:
+            a, b, c = parts
+        sl = Slot()
+        sl.q, sl.dq, sl.ddq, sl.dddq = q.tolist(), dq.tolist(), ddq.tolist(), dddq.tolist()
+        sl.a, sl.b, sl.c = [float(v) for v in a], [float(v) for v in b], [float(v) for v in c]
+        cols = 2 * n + 1
+        lB, lG, lD, uB, uG, uD = ([0.0] * cols for _ in range(6))
+        X = self.override_max * self.override_max      # never above the largest override
+        # rows: column p < n torque of joint p, n <= p < 2n acceleration of joint p - n, 2n rate
+        for p in range(cols):
+            if p < n:
+                fc = self.coulomb[p] * sgn(sl.dq[p])
+                tau = keep * self.tau_max[p]
+                al, be, ga = sl.a[p], sl.b[p], self.viscous[p] * sl.dq[p]
+                dp = sl.c[p] + max(fc, 0.0) - tau
+                dm = -sl.c[p] - min(fc, 0.0) - tau
+                jj, lim = p, LIM_TORQUE
+            elif p < 2 * n:
+                al, be, ga = sl.dq[p - n], sl.ddq[p - n], 0.0
+                dp = -(keep * self.a_max[p - n])
+                dm = dp
+                jj, lim = p - n, LIM_ACCELERATION
+            else:
+                al, be, ga = 1.0, 0.0, 0.0
+                dp = -self.U
+                dm = dp
+                jj, lim = -1, 0
+            pure = abs(al) <= ALPHA_TOL * (1.0 + abs(dp) + abs(dm))
+            sa = 1.0 if pure else al
+            uB[p] = 0.0 if pure else -be / sa
+            uG[p] = 0.0 if pure else -ga / sa
+            lB[p], lG[p] = uB[p], uG[p]
+            if pure:
+                uD[p], lD[p] = BIG, -BIG
+                if dp > REST_TOL or dm > REST_TOL:
+                    self._fault(jj, lim, "the limit cannot be met at rest")
+                X = min(X, xroot(be, ga, dp))
+                X = min(X, xroot(-be, -ga, dm))
+            elif al > 0.0:
+                uD[p], lD[p] = -dp / sa, dm / sa
+            else:
+                uD[p], lD[p] = dm / sa, -dp / sa
+            if lD[p] > REST_TOL or uD[p] < -REST_TOL:
+                self._fault(jj, lim, "the limit cannot be met at rest")
+        for j in range(n):                      # velocity limits bound x alone
+            vq = keep * self.v_max[j]
+            d = abs(sl.dq[j])
+            xv = BIG
+            if d * 1e-15 < vq:
+                t = vq / max(d, vq * 1e-15)
+                xv = min(t * t, BIG)
+            X = min(X, xv)
+        for i in range(cols):                   # every lower bound under every upper bound
+            for p in range(cols):
+                if p != i:                      # a column's own two bounds never cross
+                    X = min(X, xroot(lB[i] - uB[p], lG[i] - uG[p], lD[i] - uD[p]))
+        for p in range(cols):                   # the next x >= 0 stays reachable
+            X = min(X, xroot(-1.0 - 2.0 * ds * uB[p], -(2.0 * ds * uG[p]), -(2.0 * ds * uD[p])))
+        # where q'_j or a_j changes sign between the previous sample and this one, the
+        # limit of joint j bounds x alone somewhere in between: bound x at both samples
+        if self.window:
+            pv = self.window[-1]
+            for j in range(n):
+                if pv.dq[j] * sl.dq[j] <= 0.0:
+                    qq = max(abs(pv.ddq[j]), abs(sl.ddq[j]))
+                    xb = min(keep * self.a_max[j] / qq, BIG) if qq > 0.0 else BIG
+                    X = min(X, xb)
+                    pv.x_max = min(pv.x_max, xb)
+                if pv.a[j] * sl.a[j] <= 0.0:
+                    bb = max(abs(pv.b[j]), abs(sl.b[j]))
+                    cc = max(abs(pv.c[j]), abs(sl.c[j]))
+                    vm = self.viscous[j] * max(abs(pv.dq[j]), abs(sl.dq[j]))
+                    num = keep * self.tau_max[j] - cc - self.coulomb[j]
+                    if num > 0.0:
+                        r = xroot(bb, vm, -num)
+                        X = min(X, r)
+                        pv.x_max = min(pv.x_max, r)
+        # keep the lower bounds that are the largest somewhere on [0, sqrt(X)]
+        sl.bA, sl.bB, sl.bC = [], [], []
+        r = sqrt0(X)
+        for i in range(cols):
+            dominated = False
+            for p in range(cols):
+                if p == i:
+                    continue
+                dB, dG, dD = lB[p] - lB[i], lG[p] - lG[i], lD[p] - lD[i]
+                if dB == 0.0 and dG == 0.0 and dD == 0.0:
+                    ok = p < i
+                else:
+                    ok = dD >= 0.0 and dB * r * r + dG * r + dD >= 0.0
+                    if ok and dB > 0.0:
+                        kv = -dG / (2.0 * dB)
+                        if 0.0 < kv < r:
+                            ok = dB * kv * kv + dG * kv + dD >= 0.0
+                dominated = dominated or ok
+            if not dominated:
+                sl.bA.append(1.0 + 2.0 * ds * lB[i])
+                sl.bB.append(2.0 * ds * lG[i])
+                sl.bC.append(2.0 * ds * lD[i])
+        sl.x_max = X
+        sl.x_safe = 0.0
+        self.window.append(sl)
+        self.pushed += 1
+        self.dirty = True
+
+    # ---- the safe curve
+    def backward_pass(self):
+        """Xs = 0 at the window's last sample; before it, per sample, the largest x <= X
+        from which braking at this sample's lower bound reaches the next Xs and whose
+        straight line in (s, x) to the next Xs also respects the next sample's lower
+        bound (limits hold at both ends of every segment of the safe curve)."""
+        w = self.window
+        if not w:
+            return
+        w[-1].x_safe = 0.0
+        X1 = 0.0
+        nxt = w[-1]
+        for i in range(len(w) - 1, 0, -1):
+            sl = w[i - 1]
+            best = sl.x_max
+            k1 = sqrt0(X1)
+            L1 = -BIG                       # 2 ds times the next sample's lower bound at X1
+            for A, B, C in zip(sl.bA, sl.bB, sl.bC):
+                best = min(best, xroot(A, B, C - X1))
+            for A, B, C in zip(nxt.bA, nxt.bB, nxt.bC):
+                L1 = max(L1, (A - 1.0) * X1 + B * k1 + C)
+            best = min(best, max(X1 - L1, 0.0))
+            sl.x_safe = best
+            X1 = best
+            nxt = sl
+        self.dirty = False
+
+    def safety_cap(self, x):
+        """Largest u whose constant-u motion over this cycle ends under the safe curve:
+        on window segment j, x + 2 u d(u) <= Xs_j + m_j (sigma + d(u) - S_j) with
+        d(u) = kappa dt + dt^2 u / 2, a quadratic in u."""
+        dt, ds, w = self.dt, self.ds, self.window
+        e0, e1 = self.kappa * dt, 0.5 * dt * dt
+        cap = -self.kappa / dt                 # stopping within the cycle is always safe
+        for j in range(self.pieces):
+            if j + 1 < len(w):
+                Sj = j * ds
+                Xa, Xb = w[j].x_safe, w[j + 1].x_safe
+                mj = (Xb - Xa) / ds
+                A = 2.0 * e1
+                B = 2.0 * e0 - mj * e1
+                C = x - Xa - mj * (self.sigma + e0 - Sj)
+                disc = B * B - 4.0 * A * C
+                if disc >= 0.0:
+                    sq = sqrt0(disc)
+                    qq = -0.5 * (B + sq) if B >= 0.0 else -0.5 * (B - sq)
+                    r1 = qq / A if qq != 0.0 else 0.0
+                    r2 = C / qq if qq != 0.0 else 0.0
+                    rp, rm = max(r1, r2), min(r1, r2)
+                    ulo = (Sj - self.sigma - e0) / e1
+                    uhi = (Sj + ds - self.sigma - e0) / e1
+                    if max(rm, ulo) <= min(rp, uhi):
+                        cap = max(cap, min(rp, uhi))
+        return cap
+
+    # ---- one control cycle
+    def step(self, override_cmd):
+        if not self.window:
+            raise GovernorError("FFWD_E_ARG", "step: no sample pushed")
+        if not math.isfinite(override_cmd):
+            raise GovernorError("FFWD_E_NONFINITE", "step: the override command is not finite")
+        n, dt, ds, U, V, keep = self.n, self.dt, self.ds, self.U, self.V, self.keep
+        cmd = min(max(float(override_cmd), 0.0), self.override_max)
+        if self.dirty:
+            self.backward_pass()
+        w = self.window
+        s0 = w[0]
+        if len(w) < 2:                          # at the window's last sample: hold still
+            q = np.array(s0.q)
+            out = dict(q=q, qd=np.zeros(n), qdd=np.zeros(n),
+                       tau=inverse_dynamics(self.robot, q, np.zeros(n), np.zeros(n)),
+                       s=self.base * ds, override=0.0, rate=0.0, rate_rate=-self.u / dt,
+                       safe_override=0.0, flags=AT_REST | (DONE if self.finished else STARVED))
+            self.kappa = self.u = self.sigma = 0.0
+            return out
+        s1 = w[1]
+        th = self.sigma / ds
+        H = hermite_basis(th)
+        q, d1, d2, d3 = ([0.0] * n for _ in range(4))
+        for j in range(n):                       # the path between the two samples
+            P = (s0.q[j], ds * s0.dq[j], ds * ds * s0.ddq[j], ds * ds * s1.ddq[j],
+                 ds * s1.dq[j], s1.q[j])
+            val = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3]
+                   + Hr[4] * P[4] + Hr[5] * P[5] for Hr in H]
+            q[j] = val[0]
+            d1[j] = val[1] / ds
+            d2[j] = val[2] / (ds * ds)
+            d3[j] = val[3] / (ds * ds * ds)
+        kap = self.kappa
+        x = kap * kap
+        flags = 0
+        # the torque at this point is affine in u: tau = tau0 + a u, with tau0 the inverse
+        # dynamics at (q, q' kappa, q'' x) and a = M q' = ID(q, 0, q') - g (exact, friction
+        # included, no interpolation between samples)
+        qa = np.array(q)
+        qd = np.array([d1[j] * kap for j in range(n)])
+        tau0 = np.asarray(self.inv(qa, qd, np.array([d2[j] * x for j in range(n)])), dtype=float)
+        ta = np.asarray(self.inv(qa, np.zeros(n), np.array(d1)), dtype=float)
+        gq = np.asarray(self.grav(qa), dtype=float)
+        # (a) limits at the current point: an interval [lo, hi] of u
+        lo, hi = -U, U
+        xss = BIG
+        for k in range(2 * n):
+            j = k if k < n else k - n
+            if k < n:
+                fc = self.coulomb[j] * sgn(d1[j])
+                tau = keep * self.tau_max[j]
+                cc = s0.c[j] + th * (s1.c[j] - s0.c[j])
+                al = s0.a[j] + th * (s1.a[j] - s0.a[j])
+                be = s0.b[j] + th * (s1.b[j] - s0.b[j])
+                ga = self.viscous[j] * d1[j]
+                dp = cc + max(fc, 0.0) - tau
+                dm = -cc - min(fc, 0.0) - tau
+            else:
+                al, be, ga = d1[j], d2[j], 0.0
+                dp = -(keep * self.a_max[j])
+                dm = dp
+            ev = be * x + ga * kap
+            # largest x at which holding the speed (u = 0) is admissible here
+            xss = min(xss, min(xroot(be, ga, dp), xroot(-be, -ga, dm)))
+            if k < n:       # the exact torque rows: a u + tau0 within +-tau_max
+                al = float(ta[j]) - float(gq[j])
+                ev = float(tau0[j])
+                dp = -(keep * self.tau_max[j])
+                dm = dp
+            if abs(al) <= ALPHA_TOL * (1.0 + abs(dp) + abs(dm)):
+                if ev + dp > REST_TOL or -ev + dm > REST_TOL:
+                    flags |= CONFLICT
+            elif al > 0.0:
+                hi = min(hi, (-dp - ev) / al)
+                lo = max(lo, (dm - ev) / al)
+            else:
+                lo = max(lo, (-dp - ev) / al)
+                hi = min(hi, (dm - ev) / al)
+        # velocity limits at the end of this cycle (q' there predicted to first order)
+        for j in range(n):
+            d1n = abs(d1[j] + d2[j] * kap * dt)
+            vq = keep * self.v_max[j]
+            if d1n * 1e-15 < vq:
+                hi = min(hi, (vq / max(d1n, vq * 1e-15) - kap) / dt)
+        # (c) under the safe curve at the end of this cycle
+        cap = self.safety_cap(x)
+        # tracker target: the command, or the lowest point of the safe curve over the
+        # distance covered while u swings through its range (jerk-bounded anticipation)
+        look = self.sigma + kap * (max(self.u, 0.0) / V + dt)
+        xa = s0.x_safe + th * (s1.x_safe - s0.x_safe)
+        for k in range(1, self.H):
+            if k < len(w) and (k - 1) * ds < look:   # (later k add nothing: as in C)
+                Sk = k * ds
+                Xk = w[k].x_safe
+                if Sk <= look:
+                    xa = min(xa, Xk)
+                elif Sk - ds < look:
+                    Xp = w[k - 1].x_safe
+                    xa = min(xa, Xp + (look - (Sk - ds)) / ds * (Xk - Xp))
+        kt = min(cmd, sqrt0(min(xa, xss)))
+        if kt < cmd:
+            flags |= CAPPED
+        # (b), (d): jerk-bounded approach of the target
+        e = kt - kap
+        # largest |u| that still lets u ramp back to 0 at rate V without passing the target
+        ud = min(U, V * (sqrt0(dt * dt + 2.0 * abs(e) / V) - dt))
+        ud = ud if e >= 0.0 else -ud
+        vlo, vhi = -V, V
+        jerk_bad = False
+        for j in range(n):
+            if self.j_max[j] is not None:
+                jm = keep * self.j_max[j]
+                J0 = d3[j] * x * kap + 3.0 * d2[j] * kap * self.u
+                al = d1[j]
+                if abs(al) > ALPHA_TOL:
+                    va, vb = (-jm - J0) / al, (jm - J0) / al
+                    vlo = max(vlo, min(va, vb))
+                    vhi = min(vhi, max(va, vb))
+                elif abs(J0) > jm:
+                    jerk_bad = True
+        if vlo > vhi:
+            jerk_bad = True
+            vlo, vhi = -V, V
+        v = min(max((ud - self.u) / dt, vlo), vhi)
+        utr = self.u + v * dt
+        hi = min(hi, cap)
+        if lo > hi:
+            unew = hi
+            flags |= CONFLICT
+        else:
+            unew = min(max(utr, lo), hi)
+        vact = (unew - self.u) / dt
+        if (jerk_bad or vact < vlo - 1e-9 * (1.0 + abs(vlo))
+                or vact > vhi + 1e-9 * (1.0 + abs(vhi))):
+            flags |= JERK
+        qdd = np.array([d2[j] * x + d1[j] * unew for j in range(n)])
+        tau = np.array([float(tau0[j]) + (float(ta[j]) - float(gq[j])) * unew for j in range(n)])
+        out = dict(q=qa, qd=qd, qdd=qdd, tau=tau,
+                   s=self.base * ds + self.sigma, override=kap, rate=unew, rate_rate=vact,
+                   safe_override=sqrt0(s0.x_safe + th * (s1.x_safe - s0.x_safe)),
+                   flags=flags | (AT_REST if kap == 0.0 else 0))
+        # advance by one cycle at constant u
+        if unew < 0.0 and kap + unew * dt <= 0.0:
+            sig = self.sigma + x / (-2.0 * unew)
+            kn = 0.0
+            unew = 0.0
+        else:
+            sig = self.sigma + kap * dt + 0.5 * dt * dt * unew
+            kn = kap + unew * dt
+        send = (len(w) - 1) * ds
+        if sig > send or send - sig <= 1e-9 * ds:
+            sig = send
+        for _ in range(self.pieces + 1):
+            if len(w) > 1 and sig >= ds:
+                sig -= ds
+                w.pop(0)
+                self.base += 1
+        self.sigma, self.kappa, self.u = sig, kn, unew
+        return out
