@@ -1,4 +1,6 @@
-/* kinematics.c - tool pose and geometric tool Jacobian. */
+/* kinematics.c - tool pose and geometric tool Jacobian, on the aligned joint frames of
+ * spatial.h: the tool frame is cached in the aligned tool_parent frame, and each joint's
+ * axis in the base frame is the third column of its aligned world rotation. */
 #include "spatial.h"
 
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
@@ -26,8 +28,8 @@ static void world_poses(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
         }
     }
     W = AUX(w, m->tool_parent);
-    m3_mm(W, m->tool_rot, Rt);
-    m3_mul(W, m->tool_pos, t);
+    m3_mm(W, w->scratch + FFWD_OFF_TOOL, Rt);
+    m3_mul(W, w->scratch + FFWD_OFF_TOOL + 9, t);
     pt[0] = t[0] + W[9]; pt[1] = t[1] + W[10]; pt[2] = t[2] + W[11];
 }
 
@@ -79,7 +81,7 @@ ffwd_status ffwd_tool_jacobian(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         const ffwd_real *A = AUX(w, j);
         ffwd_real z[3], d[3], v[3];
         uint32_t c = (uint32_t)j;
-        m3_mul(A, Jt->axis, z);
+        z[0] = A[2]; z[1] = A[5]; z[2] = A[8];
         if (Jt->type == FFWD_REVOLUTE) {
             d[0] = p[0] - A[9]; d[1] = p[1] - A[10]; d[2] = p[2] - A[11];
             v3_cross(z, d, v);

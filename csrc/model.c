@@ -215,41 +215,96 @@ int ffwd_bound_(const ffwd_model *m, const ffwd_work *w)
     return w->model == m && w->stamp == ffwd_stamp_of_(m) && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
 }
 
-/* Per-joint constants of the joint transform (see ffwd_transforms_ in dynamics.c). */
-static void cache_joint(const ffwd_joint *J, ffwd_real *K)
+#ifdef FFWD_SINGLE
+#define PERM_TOL FR(1e-7)
+#else
+#define PERM_TOL FR(1e-15)
+#endif
+
+/* The alignment rotation of a joint axis: A with A e_z = a/|a|, a function of the axis
+ * alone. For a_z >= 0 the rotation about e_z x a taking e_z to a (a coordinate axis gives
+ * a signed permutation, e_z gives 1); for a_z < 0 the one for -a followed by a half turn
+ * about x. |a| is normalised with Newton steps (|a|^2 is within 1e-6 of 1). */
+static void align_of(const ffwd_real *a, ffwd_real *A)
 {
-    const ffwd_real *a = J->axis, *r = J->rot;
-    ffwd_real n = v3_dot(a, a), P[9], X[9], Q[9];
+    ffwd_real n2 = v3_dot(a, a), r = FR(1), v[3], d, sg;
     int k;
+    for (k = 0; k < 4; k++)
+        r = r * (FR(1.5) - FR(0.5) * n2 * r * r);
+    sg = a[2] >= FR(0) ? FR(1) : FR(-1);
+    v[0] = sg * a[0] * r; v[1] = sg * a[1] * r; v[2] = sg * a[2] * r;
+    d = FR(1) / (FR(1) + v[2]);
+    A[0] = FR(1) - v[0] * v[0] * d; A[1] = -v[0] * v[1] * d; A[2] = v[0];
+    A[3] = -v[0] * v[1] * d;        A[4] = FR(1) - v[1] * v[1] * d; A[5] = v[1];
+    A[6] = -v[0];                   A[7] = -v[1];                   A[8] = v[2];
+    /* half turn about x (columns 1, 2 negated) when a_z < 0 */
+    for (k = 0; k < 3; k++) {
+        A[3 * k + 1] *= sg;
+        A[3 * k + 2] *= sg;
+    }
+}
+
+/* E a signed permutation (within PERM_TOL): then snap it and record per row the sign (a
+ * real) and the column index (int32 bits, see e_tmul in dynamics.c) */
+static void detect_perm(ffwd_real *K)
+{
+    ffwd_real *E = K + FFWD_K_E;
+    int32_t ix[3];
+    int r, c, used = 0, ok = 1;
+    for (r = 0; r < 3; r++) {
+        int best = 0;
+        for (c = 1; c < 3; c++)
+            if (absr(E[3 * r + c]) > absr(E[3 * r + best]))
+                best = c;
+        for (c = 0; c < 3; c++) {
+            ffwd_real e = absr(E[3 * r + c]);
+            if (c == best ? e < FR(1) - PERM_TOL : e > PERM_TOL)
+                ok = 0;
+        }
+        used |= 1 << best;
+        ix[r] = (int32_t)best;
+        K[FFWD_K_SG + r] = E[3 * r + best] > FR(0) ? FR(1) : FR(-1);
+    }
+    if (!ok || used != 7) {
+        K[FFWD_K_PERM] = FR(0);
+        return;
+    }
+    K[FFWD_K_PERM] = FR(1);
+    memcpy(K + FFWD_K_IX, ix, sizeof ix);
+    for (r = 0; r < 3; r++)
+        for (c = 0; c < 3; c++)
+            E[3 * r + c] = c == (int)ix[r] ? K[FFWD_K_SG + r] : FR(0);
+}
+
+/* Aligned constants of joint J (see spatial.h): Ap = A of the parent (NULL: base), A its own */
+static void cache_joint(const ffwd_joint *J, const ffwd_real *Ap, const ffwd_real *A, ffwd_real *K)
+{
+    ffwd_real RA[9];
+    int k, r, c;
     for (k = 0; k < FFWD_K_STRIDE; k++)
         K[k] = FR(0);
-    if (J->type == FFWD_REVOLUTE) {
-        int i, j;
-        /* a a^T / |a|^2 so that a slightly non-unit axis still gives a rotation */
-        for (i = 0; i < 3; i++)
-            for (j = 0; j < 3; j++) {
-                P[3 * i + j] = a[i] * a[j] / n;
-                Q[3 * i + j] = (i == j ? FR(1) : FR(0)) - P[3 * i + j];
-            }
-        X[0] = FR(0); X[1] = -a[2]; X[2] = a[1];
-        X[3] = a[2]; X[4] = FR(0); X[5] = -a[0];
-        X[6] = -a[1]; X[7] = a[0]; X[8] = FR(0);
-        m3_mm(r, P, K);
-        m3_mm(r, Q, K + 9);
-        m3_mm(r, X, K + 18);
-        K[27] = J->pos[0]; K[28] = J->pos[1]; K[29] = J->pos[2];
-    } else {
+    m3_mm(J->rot, A, RA);
+    if (Ap == NULL) {
         for (k = 0; k < 9; k++)
-            K[k] = r[k];
-        K[9] = J->pos[0]; K[10] = J->pos[1]; K[11] = J->pos[2];
-        m3_mul(r, a, K + 12);
+            K[FFWD_K_E + k] = RA[k];
+        for (k = 0; k < 3; k++)
+            K[FFWD_K_P + k] = J->pos[k];
+    } else {
+        for (r = 0; r < 3; r++)
+            for (c = 0; c < 3; c++)
+                K[FFWD_K_E + 3 * r + c] = Ap[r] * RA[c] + Ap[3 + r] * RA[3 + c] + Ap[6 + r] * RA[6 + c];
+        m3_tmul(Ap, J->pos, K + FFWD_K_P);
     }
+    params_rotate_t(A, J->inertia, K + FFWD_K_TH);
+    detect_perm(K);
 }
 
 ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
 {
     ffwd_status st;
     uint32_t i;
+    ffwd_real *Atp, *tool;
+    int r, c;
     if (w == NULL || m == NULL)
         return FFWD_E_ARG;
     w->model = NULL;
@@ -259,8 +314,25 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
     if (st != FFWD_OK)
         return st;
     ffwd_zero_(w->scratch, (uint32_t)FFWD_WORK_REALS);
-    for (i = 0; i < m->dof; i++)
-        cache_joint(&m->joint[i], w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
+    /* the A_i are kept in the (per-call) AUX area while the constants are computed */
+    for (i = 0; i < m->dof; i++) {
+        const int32_t par = m->joint[i].parent;
+        ffwd_real *A = w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * i;
+        align_of(m->joint[i].axis, A);
+        cache_joint(&m->joint[i], par >= 0 ? w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)par : NULL,
+                    A, w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
+    }
+    Atp = w->scratch + FFWD_OFF_ATP;
+    tool = w->scratch + FFWD_OFF_TOOL;
+    for (r = 0; r < 9; r++)
+        Atp[r] = w->scratch[FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)m->tool_parent + (uint32_t)r];
+    for (r = 0; r < 3; r++)
+        for (c = 0; c < 3; c++)
+            tool[3 * r + c] = Atp[r] * m->tool_rot[c] + Atp[3 + r] * m->tool_rot[3 + c] + Atp[6 + r] * m->tool_rot[6 + c];
+    m3_tmul(Atp, m->tool_pos, tool + 9);
+    params_rotate_t(Atp, m->payload, w->scratch + FFWD_OFF_PAY);
+    ffwd_zero_(w->scratch + FFWD_OFF_A, (uint32_t)(FFWD_A_STRIDE * FFWD_MAX_DOF));
+    ffwd_fill_tool_body_(m, w);
     w->model = m;
     w->stamp = ffwd_stamp_of_(m);
     return FFWD_OK;
@@ -273,6 +345,8 @@ ffwd_status ffwd_work_use_payload(ffwd_work *w, ffwd_payload_box *box)
     if (w->model == NULL || !ffwd_bound_(w->model, w))
         return FFWD_E_MODEL;
     w->payload = box;
+    if (box == NULL)
+        ffwd_fill_tool_body_(w->model, w);
     return FFWD_OK;
 }
 

@@ -37,30 +37,49 @@ static uint32_t state_load(ffwd_payload_box *b) { return b->state; }
 static uint32_t state_load(ffwd_payload_box *b) { return atomic_load(&b->state); }
 #endif
 
+/* The TP area for the model's own payload: body tool_parent plus the payload rotated by
+ * ffwd_work_init, both in the aligned tool_parent frame. */
+void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
+{
+    const ffwd_real *base = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
+    const ffwd_real *pay = w->scratch + FFWD_OFF_PAY;
+    ffwd_real *out = w->scratch + FFWD_OFF_TP;
+    int k;
+    for (k = 0; k < 10; k++)
+        out[k] = base[k] + pay[k];
+}
+
+/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h):
+ * without a box the TP area already holds it (ffwd_fill_tool_body_); a box's payload is
+ * copied under the hold, then rotated. */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
-    const ffwd_real *base = m->joint[m->tool_parent].inertia;
+    const ffwd_real *base = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
     ffwd_real *out = w->scratch + FFWD_OFF_TP;
     ffwd_payload_box *box = w->payload;
     int k;
     if (box == NULL) {
-        for (k = 0; k < 10; k++)
-            out[k] = base[k] + m->payload[k];
+        /* filled by ffwd_work_init / ffwd_work_use_payload(w, NULL) (ffwd_fill_tool_body_) */
+        return out;
     } else {
+        ffwd_real raw[10], rot[10];
 #if defined(FFWD_NO_ATOMICS)
         uint32_t idx = box->state & 1u;
         for (k = 0; k < 10; k++)
-            out[k] = base[k] + box->buf[idx][k];
+            raw[k] = box->buf[idx][k];
 #else
         uint32_t old = atomic_fetch_add(&box->state, HOLD_ACTIVE);
         uint32_t idx = old & 1u, cur, nw;
         for (k = 0; k < 10; k++)
-            out[k] = base[k] + box->buf[idx][k];
+            raw[k] = box->buf[idx][k];
         cur = atomic_load(&box->state);
         do {
             nw = ((cur & 1u) == idx) ? cur - HOLD_ACTIVE : cur - HOLD_OTHER;
         } while (!atomic_compare_exchange_weak(&box->state, &cur, nw));
 #endif
+        params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
+        for (k = 0; k < 10; k++)
+            out[k] = base[k] + rot[k];
     }
     return out;
 }

@@ -1,52 +1,52 @@
 /* regressor.c - joint-torque regressor Y(q, qd, qdd) with Y theta = inverse dynamics.
  *
  * For body k the Newton-Euler body force f_k = I_k a_k + v_k x* I_k v_k is linear in
- * its 10 parameters: f_k = A_k theta_k with a 6x10 body regressor A_k built from the
- * spatial velocity and acceleration (gravity included). Joint j's torque gets
- * S_j . (X_{j<-k}^T A_k) for every k in the subtree of j, so each A_k is carried up
- * the chain of ancestors of k, one force transform per column and level: O(n^2).
+ * its 10 parameters: f_k = A_k theta_k (A_k the 6x10 body regressor from the spatial
+ * velocity and acceleration, gravity included). Joint j's torque gets
+ * S_j . (X_{j<-k}^T A_k theta_k) = (X_{k<-j} S_j) . (A_k theta_k) for every k in the
+ * subtree of j: the motion subspace of j is carried down the subtree, one motion
+ * transform per pair (O(n^2)), and each entry is a closed-form product of that motion
+ * vector with the body's velocity and acceleration.
+ * The dynamics run in the aligned frames of spatial.h, but theta_k is given in the
+ * original joint frame k: the carried vector is rotated into that frame (x = A_k x'),
+ * where the body's velocity and acceleration were rotated once.
  * The drive columns are qdd_j (armature), qd_j (viscous) and the Coulomb ramp.
  */
 #include "spatial.h"
 
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
+#define AUX(w, i) ((w)->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)(i))
+#define KONST(w, i) ((w)->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)(i))
 
-/* A (column-major 6x10: column c at A + 6c) from v, a of a body */
-static void body_regressor(const ffwd_real *v, const ffwd_real *a, ffwd_real *A)
+/* AUX(k): A_k[9], then in the original frame k: w[3], aw[3], beta = al + w x vl [3], |w|^2,
+ * and the index of the joint whose subspace B(k)+24 currently holds */
+#define RG_A 0
+#define RG_W 9
+#define RG_AW 12
+#define RG_BETA 15
+#define RG_WW 18
+#define RG_MARK 19
+
+/* the 10 entries s . (A theta) for a motion vector s = (sw, sv) in the original frame */
+static void regressor_row(const ffwd_real *X, const ffwd_real *sw, const ffwd_real *sv, ffwd_real *row)
 {
-    const ffwd_real *w = v, *vl = v + 3, *aw = a, *al = a + 3;
-    ffwd_real beta[3], t[3];
-    int c, k;
-    v3_cross(w, vl, beta);
-    beta[0] += al[0]; beta[1] += al[1]; beta[2] += al[2];
-    for (k = 0; k < 60; k++)
-        A[k] = FR(0);
-    /* mass: f = al + w x vl */
-    A[3] = beta[0]; A[4] = beta[1]; A[5] = beta[2];
-    /* first moment h = e_c: n = e_c x beta, f = aw x e_c + w x (w x e_c) */
-    for (c = 0; c < 3; c++) {
-        ffwd_real e[3] = { 0, 0, 0 }, *col = A + 6 * (1 + c);
-        e[c] = FR(1);
-        v3_cross(e, beta, col);
-        v3_cross(w, e, t);
-        v3_cross(w, t, col + 3);
-        v3_cross(aw, e, t);
-        col[3] += t[0]; col[4] += t[1]; col[5] += t[2];
-    }
-    /* rotational inertia entries: n = L(aw) + w x L(w), with Io x = L(x) (Ixx..Izz) */
-    for (c = 0; c < 6; c++) {
-        ffwd_real la[3], lw[3], *col = A + 6 * (4 + c);
-        switch (c) {
-        case 0: la[0] = aw[0]; la[1] = FR(0); la[2] = FR(0); lw[0] = w[0]; lw[1] = FR(0); lw[2] = FR(0); break;
-        case 1: la[0] = aw[1]; la[1] = aw[0]; la[2] = FR(0); lw[0] = w[1]; lw[1] = w[0]; lw[2] = FR(0); break;
-        case 2: la[0] = aw[2]; la[1] = FR(0); la[2] = aw[0]; lw[0] = w[2]; lw[1] = FR(0); lw[2] = w[0]; break;
-        case 3: la[0] = FR(0); la[1] = aw[1]; la[2] = FR(0); lw[0] = FR(0); lw[1] = w[1]; lw[2] = FR(0); break;
-        case 4: la[0] = FR(0); la[1] = aw[2]; la[2] = aw[1]; lw[0] = FR(0); lw[1] = w[2]; lw[2] = w[1]; break;
-        default: la[0] = FR(0); la[1] = FR(0); la[2] = aw[2]; lw[0] = FR(0); lw[1] = FR(0); lw[2] = w[2]; break;
-        }
-        v3_cross(w, lw, t);
-        col[0] = la[0] + t[0]; col[1] = la[1] + t[1]; col[2] = la[2] + t[2];
-    }
+    const ffwd_real *w = X + RG_W, *aw = X + RG_AW, *beta = X + RG_BETA;
+    ffwd_real u[3], t[3], r[3], svw = v3_dot(sv, w);
+    row[0] = v3_dot(sv, beta);
+    /* first moment: beta x sw + sv x aw + (sv . w) w - |w|^2 sv */
+    v3_cross(beta, sw, t);
+    v3_cross(sv, aw, r);
+    row[1] = t[0] + r[0] + svw * w[0] - X[RG_WW] * sv[0];
+    row[2] = t[1] + r[1] + svw * w[1] - X[RG_WW] * sv[1];
+    row[3] = t[2] + r[2] + svw * w[2] - X[RG_WW] * sv[2];
+    /* rotational inertia: sw^T I aw + u^T I w with u = sw x w */
+    v3_cross(sw, w, u);
+    row[4] = sw[0] * aw[0] + u[0] * w[0];
+    row[5] = sw[0] * aw[1] + sw[1] * aw[0] + u[0] * w[1] + u[1] * w[0];
+    row[6] = sw[0] * aw[2] + sw[2] * aw[0] + u[0] * w[2] + u[2] * w[0];
+    row[7] = sw[1] * aw[1] + u[1] * w[1];
+    row[8] = sw[1] * aw[2] + sw[2] * aw[1] + u[1] * w[2] + u[2] * w[1];
+    row[9] = sw[2] * aw[2] + u[2] * w[2];
 }
 
 ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -55,9 +55,8 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     const ffwd_real *in[3];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_REG };
-    ffwd_real *A = w != NULL ? w->scratch + FFWD_OFF_TMP : NULL;
     ffwd_status st;
-    uint32_t n, cols, k;
+    uint32_t n, cols, j, k;
     if (!(qd != NULL && qdd != NULL && Y != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = Y;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
@@ -69,31 +68,54 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     ffwd_zero_(Y, n * cols);
     ffwd_transforms_(m, w, q);
     ffwd_pass_va_(m, w, qd, qdd, m->gravity);
+    /* per body: A_k = rot_k^T A_parent E_k, and v, a in the original frame */
     for (k = 0; k < n; k++) {
-        const ffwd_real *B = BODY(w, k);
         const ffwd_joint *Jk = &m->joint[k];
-        int32_t j = (int32_t)k;
-        uint32_t step, c;
-        body_regressor(B + 12, B + 18, A);
-        for (step = 0; step < n && j >= 0; step++) {
-            const ffwd_joint *J = &m->joint[j];
-            const ffwd_real *Bj = BODY(w, j);
-            ffwd_real *row = Y + (uint32_t)j * cols + 13u * k;
-            for (c = 0; c < 10u; c++)
-                row[c] = v3_dot(J->axis, J->type == FFWD_REVOLUTE ? A + 6 * c : A + 6 * c + 3);
-            if (J->parent >= 0)
-                for (c = 0; c < 10u; c++) {
-                    ffwd_real o[6];
-                    int r;
-                    xf_apply_t(Bj, Bj + 9, A + 6 * c, o);
-                    for (r = 0; r < 6; r++)
-                        A[6 * c + (uint32_t)r] = o[r];
-                }
-            j = J->parent;
+        const ffwd_real *B = BODY(w, k), *E = KONST(w, k) + FFWD_K_E;
+        ffwd_real *X = AUX(w, k), *A = X + RG_A, vl[3], al[3], T[9];
+        int r, c;
+        if (Jk->parent >= 0) {
+            m3_mm(AUX(w, Jk->parent) + RG_A, E, T);
+        } else {
+            for (r = 0; r < 9; r++)
+                T[r] = E[r];
         }
+        for (r = 0; r < 3; r++)
+            for (c = 0; c < 3; c++)
+                A[3 * r + c] = Jk->rot[r] * T[c] + Jk->rot[3 + r] * T[3 + c] + Jk->rot[6 + r] * T[6 + c];
+        m3_mul(A, B + 12, X + RG_W);
+        m3_mul(A, B + 15, vl);
+        m3_mul(A, B + 18, X + RG_AW);
+        m3_mul(A, B + 21, al);
+        v3_cross(X + RG_W, vl, X + RG_BETA);
+        X[RG_BETA] += al[0]; X[RG_BETA + 1] += al[1]; X[RG_BETA + 2] += al[2];
+        X[RG_WW] = v3_dot(X + RG_W, X + RG_W);
+        X[RG_MARK] = FR(-1);
+    }
+    /* carry each joint's motion subspace down its subtree (B(k)+24: s in aligned frame k) */
+    for (j = 0; j < n; j++) {
+        const ffwd_real mark = (ffwd_real)j;
+        for (k = j; k < n; k++) {
+            const ffwd_joint *Jk = &m->joint[k];
+            ffwd_real *B = BODY(w, k), *X = AUX(w, k), *s = B + 24, so[6];
+            if (k == j) {
+                s[0] = s[1] = s[2] = s[3] = s[4] = s[5] = FR(0);
+                s[Jk->type == FFWD_REVOLUTE ? 2 : 5] = FR(1);
+            } else if (Jk->parent >= 0 && AUX(w, Jk->parent)[RG_MARK] == mark) {
+                xm_apply(B, B + 9, BODY(w, Jk->parent) + 24, s);
+            } else {
+                continue;
+            }
+            X[RG_MARK] = mark;
+            m3_mul(X + RG_A, s, so);
+            m3_mul(X + RG_A, s + 3, so + 3);
+            regressor_row(X, so, so + 3, Y + j * cols + 13u * k);
+        }
+    }
+    for (k = 0; k < n; k++) {
         Y[k * cols + 13u * k + 10u] = qdd[k];
         Y[k * cols + 13u * k + 11u] = qd[k];
-        Y[k * cols + 13u * k + 12u] = clamp1(qd[k] / Jk->coulomb_band);
+        Y[k * cols + 13u * k + 12u] = clamp1(qd[k] / m->joint[k].coulomb_band);
     }
     return FFWD_OK;
 }

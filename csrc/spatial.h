@@ -20,25 +20,47 @@
 #define FR(x) ((ffwd_real)(x))
 
 /* ---- work scratch layout (offsets into ffwd_work.scratch) ----------------------- */
-/* per-model constants cached by ffwd_work_init, per joint: Rt = C0 + cos q * CA + sin q * CB,
- * p = pos (revolute); Rt = rot, p = pos + q * rot * axis (prismatic). ffwd_transforms_ in
- * dynamics.c evaluates them for every joint (sin/cos of all joints first, two at a time). */
+/* Aligned joint frames. ffwd_work_init chooses for every joint i a constant rotation A_i
+ * (a function of axis_i alone, see model.c) with A_i e_z = axis_i and re-expresses joint
+ * frame i with axes A_i (the base keeps its axes). In these frames every joint moves
+ * about / along its local z axis, and the fixed part of the transform parent -> child is
+ *   E_i = A_parent^T rot_i A_i,   p'_i = A_parent^T pos_i
+ * so that x_parent = E_i Rz(q_i) x_child + p'_i (revolute) or
+ *          x_parent = E_i (x_child + q_i e_z) + p'_i (prismatic).
+ * Body parameters are rotated at init (m, A^T h, A^T I A). Per joint K(i):
+ *   E[9] p'[3] th'[10] perm flag, perm column index[3], perm sign[3]
+ * perm flag 1 when E is a signed permutation: row r of E has its one nonzero, sign[r],
+ * in column index[r] (three int32 stored in the bytes of the index slots). */
 #define FFWD_K_STRIDE 30
 #define FFWD_OFF_K      0
-/* per-call per-body state: Rt[9] p[3] v[6] a[6] f[6] */
+#define FFWD_K_E  0
+#define FFWD_K_P  9
+#define FFWD_K_TH 12
+#define FFWD_K_PERM 22
+#define FFWD_K_IX 23
+#define FFWD_K_SG 26
+/* per-call per-body state: Rt[9] p[3] then 18 numbers (meaning depends on the function) */
 #define FFWD_B_STRIDE 30
 #define FFWD_OFF_B      (FFWD_OFF_K + FFWD_K_STRIDE * FFWD_MAX_DOF)
 /* composite inertia (10) / articulated body data (47) per body */
 #define FFWD_A_STRIDE 48
 #define FFWD_OFF_A      (FFWD_OFF_B + FFWD_B_STRIDE * FFWD_MAX_DOF)
-/* effective payload-lumped parameters of the tool_parent body, and a 6x10 temp */
+/* effective payload-lumped parameters of the tool_parent body (aligned frame), and a temp */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
+/* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
+ * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
+ * tool_parent frame (10) */
+#define FFWD_OFF_ATP    (FFWD_OFF_TMP + 30)
+#define FFWD_OFF_TOOL   (FFWD_OFF_ATP + 9)
+#define FFWD_OFF_PAY    (FFWD_OFF_TOOL + 12)
 /* q (zero padded to an even count), sin q, cos q for the joint transforms */
 #define FFWD_TRIG_STRIDE (FFWD_MAX_DOF + 1)
 #define FFWD_OFF_TRIG   (FFWD_OFF_TMP + 64)
 #define FFWD_LAYOUT_END (FFWD_OFF_TRIG + 3 * FFWD_TRIG_STRIDE)
 
+typedef char ffwd_index_fits[(3 * sizeof(ffwd_real) >= 3 * sizeof(int32_t)) ? 1 : -1];
+typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
@@ -53,6 +75,10 @@ int ffwd_finite_(const ffwd_real *x, uint32_t n);
 /* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
  * and returns a pointer to it (payload.c; readers never wait). */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* Fills w's TP area with body tool_parent plus the model's payload (payload.c); done by
+ * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
+ * while no box is in use. */
+void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
 /* payload parameters all zero or a physically valid body (model.c). */
 int ffwd_payload_params_ok_(const ffwd_real *th);
 /* Entry checks shared by the per-cycle functions (model.c). in: nin input vectors of
@@ -62,10 +88,13 @@ int ffwd_payload_params_ok_(const ffwd_real *th);
 enum { FFWD_SHAPE_N = 0, FFWD_SHAPE_NN = 1, FFWD_SHAPE_44 = 2, FFWD_SHAPE_6N = 3, FFWD_SHAPE_REG = 4 };
 ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
                         ffwd_real *const *out, const int *shape, int nout);
-/* Rt, p of every body at q into the work's body area (dynamics.c). */
+/* sin q, cos q into the trig area, and p of every prismatic body into B(i) + 9 (dynamics.c). */
+void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+/* Full R = E Rz(q) (or E), p of every body (aligned frames) into the work's body area
+ * (dynamics.c); calls ffwd_trig_. */
 void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
-/* Forward pass of spatial velocity and acceleration of every body, base acceleration -g;
- * qd or qdd NULL means zero (dynamics.c). Needs ffwd_transforms_. */
+/* Forward pass of spatial velocity and acceleration of every body (aligned frames), base
+ * acceleration -g; qd or qdd NULL means zero (dynamics.c). Needs ffwd_transforms_. */
 void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const ffwd_real *qdd,
                    const ffwd_real *g);
 /* x[0..n) = 0; x may be NULL. */
@@ -248,6 +277,24 @@ static inline void params_to_parent(const ffwd_real *R, const ffwd_real *p, cons
     o[3] = hR[2] + m * p[2];
     o[4] = J[0]; o[5] = J[1]; o[6] = J[2];
     o[7] = J[4]; o[8] = J[5]; o[9] = J[8];
+}
+
+/* The same body's parameters in axes rotated by A (x_old = A x_new): m, A^T h, A^T I A. */
+static inline void params_rotate_t(const ffwd_real *A, const ffwd_real *th, ffwd_real *o)
+{
+    ffwd_real I[9], IA[9];
+    int i, j;
+    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
+    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
+    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
+    m3_mm(I, A, IA);
+    o[0] = th[0];
+    m3_tmul(A, th + 1, o + 1);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            I[3 * i + j] = A[i] * IA[j] + A[3 + i] * IA[3 + j] + A[6 + i] * IA[6 + j];
+    o[4] = I[0]; o[5] = I[1]; o[6] = I[2];
+    o[7] = I[4]; o[8] = I[5]; o[9] = I[8];
 }
 
 /* c ? a : b without a branch (bit blend), for data-independent timing */
