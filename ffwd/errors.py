@@ -17,9 +17,31 @@ def format_value(value):
         value = value.tolist()
     if isinstance(value, float):
         return repr(value)
-    text = repr(value)
+    if _is_long_int(value):
+        return _long_int(value)
+    try:
+        if isinstance(value, list) and any(map(_is_long_int, value)):
+            text = "[" + ", ".join(format_value(v) for v in value) + "]"
+        else:
+            text = repr(value)
+    except ValueError:     # an int with more digits than Python will print
+        text = f"<a {type(value).__name__} too long to print>"
     text = " ".join(text.split())
     return text if len(text) <= 80 else text[:77] + "..."
+
+
+def _is_long_int(value):
+    return isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10 ** 20
+
+
+def _long_int(value):
+    """'1000...0000 (401 digits)' for an integer too long to show whole."""
+    try:
+        digits = str(abs(value))
+    except ValueError:     # past Python's int-to-text limit (4300 digits)
+        return f"<an integer of about {int(value.bit_length() * 0.30103)} digits>"
+    sign = "-" if value < 0 else ""
+    return f"{sign}{digits[:6]}...{digits[-4:]} ({len(digits)} digits)"
 
 
 class ModelError(ValueError):
@@ -41,7 +63,7 @@ class ModelError(ValueError):
         if self.file is not None:
             parts.append(self.file)
         if self.joint is not None:
-            parts.append(f"joint {self.joint!r}")
+            parts.append(f"joint {format_value(self.joint)}")
         if self.field is not None:
             if self._has_value:
                 parts.append(f"field {self.field!r} = {format_value(self.value)}")

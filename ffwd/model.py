@@ -29,6 +29,9 @@ JOINT_TYPES = ("revolute", "prismatic")
 _SYM_TOL = 1e-9       # relative asymmetry allowed in an inertia matrix
 _ORTHO_TOL = 1e-6     # |R^T R - I| allowed in a rotation matrix
 _AXIS_WARN = 1e-3     # warn if an axis's norm is further than this from 1
+_HUGE = 1e50          # largest magnitude of any model number: far beyond any machine
+                      # (a bigger one is a typo or a unit error), and small enough that
+                      # products of six model numbers stay inside the float range (1.8e308)
 
 
 # ---- small helpers ----------------------------------------------------------------
@@ -43,19 +46,34 @@ def _frozen(a):
     return a
 
 
-def _array(value, shape, name):
-    """Float array of the given shape, finite, read-only; else a ModelError on `name`."""
+def _floats(value, name):
+    """np.array(value, dtype=float), or a ModelError on `name` saying why not."""
     try:
-        a = np.array(value, dtype=float)
+        return np.array(value, dtype=float)
+    except OverflowError:      # an integer beyond the float range (about 1.8e308)
+        raise ModelError("too large for a float (over about 1.8e308)", field=name,
+                         value=value) from None
     except (TypeError, ValueError):
         raise ModelError("must be numbers", field=name, value=value) from None
+
+
+def _array(value, shape, name):
+    """Float array of the given shape, finite, read-only; else a ModelError on `name`."""
+    a = _floats(value, name)
     if a.shape != shape:
         want = "a number" if shape == () else f"shape {shape}"
         raise ModelError(f"must be {want}, got shape {a.shape}", field=name, value=value)
     if not np.all(np.isfinite(a)):
         raise ModelError("must be finite", field=name, value=value)
+    _check_magnitude(a, name, value)
     a.flags.writeable = False
     return a
+
+
+def _check_magnitude(a, name, value):
+    if a.size and float(np.max(np.abs(a))) > _HUGE:
+        raise ModelError(f"must be below {_HUGE:g} in magnitude (a unit error?)",
+                         field=name, value=value)
 
 
 def _number(value, name):
@@ -70,14 +88,22 @@ def inertia_from_entries(xx, yy, zz, xy=0.0, xz=0.0, yz=0.0):
 
 
 def _check_inertia(inertia, name, allow_zero=False):
-    """Symmetric, positive (semi)definite, principal moments obey the triangle inequality."""
+    """Finite and not huge, symmetric, positive (semi)definite, principal moments obey
+    the triangle inequality."""
     I = inertia
+    if not np.all(np.isfinite(I)):
+        raise ModelError("must be finite", field=name, value=I)
+    _check_magnitude(I, name, I)
     scale = max(float(np.max(np.abs(I))), 1e-300)
     if np.max(np.abs(I - I.T)) > _SYM_TOL * scale:
         raise ModelError("must be symmetric", field=name, value=I)
     if allow_zero and not np.any(I):
         return
-    d = np.linalg.eigvalsh(0.5 * (I + I.T))
+    try:
+        d = np.linalg.eigvalsh(0.5 * (I + I.T))
+    except np.linalg.LinAlgError as exc:
+        raise ModelError(f"principal moments cannot be computed ({exc})", field=name,
+                         value=I) from None
     if d[0] <= (0.0 if not allow_zero else -1e-12 * scale):
         kind = "positive definite" if not allow_zero else "positive semidefinite"
         raise ModelError(f"must be {kind} (principal moments {d.tolist()})",
@@ -211,7 +237,7 @@ class Joint:
         with located(joint=self.name):
             if not isinstance(self.name, str) or not self.name:
                 raise ModelError("must be a non-empty string", field="name", value=self.name)
-            if self.type not in JOINT_TYPES:
+            if not isinstance(self.type, str) or self.type not in JOINT_TYPES:
                 raise ModelError(f"must be one of {', '.join(JOINT_TYPES)}",
                                  field="type", value=self.type)
             if isinstance(self.parent, bool) or not isinstance(self.parent, (int, np.integer)):
@@ -254,7 +280,7 @@ class Tool:
 
 def _inertia_arg(inertia, name):
     """Inertia as a 3x3 matrix or as 6 entries (xx, xy, xz, yy, yz, zz)."""
-    a = np.array(inertia, dtype=float) if inertia is not None else np.zeros((3, 3))
+    a = _floats(inertia, name) if inertia is not None else np.zeros((3, 3))
     if a.shape == (6,):
         a = inertia_from_entries(a[0], a[3], a[5], a[1], a[2], a[4])
     return _array(a, (3, 3), name)
@@ -301,6 +327,8 @@ class Robot:
     source: str | None = None
 
     def __post_init__(self):
+        if self.source is not None and not isinstance(self.source, (str, os.PathLike)):
+            raise ModelError("must be a file name or None", field="source", value=self.source)
         file = None if self.source is None else str(self.source)
         with located(file=file):
             self._validate()
@@ -314,6 +342,8 @@ class Robot:
             raise ModelError("must be a string", field="robot.name", value=self.name)
         with located(prefix="robot"):
             _set(self, "gravity", _array(self.gravity, (3,), "gravity"))
+        if isinstance(self.joints, (str, bytes)) or not hasattr(self.joints, "__iter__"):
+            raise ModelError("must be a sequence of Joint", field="joint", value=self.joints)
         joints = tuple(self.joints)
         _set(self, "joints", joints)
         if not 1 <= len(joints) <= MAX_DOF:
@@ -385,7 +415,8 @@ class Robot:
         the payload is set to zero (it is part of theta). Gear ratios and Coulomb bands
         are kept; rotor inertia = armature / gear_ratio**2."""
         file = None if self.source is None else str(self.source)
-        theta = np.asarray(theta, dtype=float)
+        with located(file=file):
+            theta = _floats(theta, "theta")
         if theta.shape != (13 * self.dof,):
             raise ModelError(f"must have shape ({13 * self.dof},), got {theta.shape}",
                              file=file, field="theta")

@@ -1,9 +1,12 @@
 """Trajectory CSV files: a `t` column and one `q_<joint>` column per joint, optional
 `qd_<joint>` and `qdd_<joint>` columns. Errors name the file, the column and the row."""
 import csv
+import io
 from dataclasses import dataclass
 
 import numpy as np
+
+from .formats import read_text
 
 
 @dataclass(frozen=True)
@@ -27,13 +30,18 @@ def _column_block(header, rows, prefix, names, path, required):
 def read_trajectory(path, joint_names):
     """Read a trajectory CSV for a robot with these joint names (in order)."""
     path = str(path)
-    with open(path, newline="") as fh:
-        reader = csv.reader(fh)
-        try:
-            header = [h.strip() for h in next(reader)]
-        except StopIteration:
-            raise ValueError(f"{path}: empty file") from None
+    reader = csv.reader(io.StringIO(read_text(path, error=ValueError), newline=""))
+    try:
+        header = [h.strip() for h in next(reader)]
         body = [r for r in reader if r and any(c.strip() for c in r)]
+    except StopIteration:
+        raise ValueError(f"{path}: empty file") from None
+    except csv.Error as exc:      # e.g. a cell over the csv module's field size limit
+        raise ValueError(f"{path}: line {reader.line_num}: not readable as CSV ({exc})") from None
+    for j, name in enumerate(header):
+        if name and name in header[:j]:
+            raise ValueError(f"{path}: column '{name}' appears more than once (columns "
+                             f"{header.index(name) + 1} and {j + 1})")
     if "t" not in header:
         raise ValueError(f"{path}: missing column 't'")
     if len(body) < 2:

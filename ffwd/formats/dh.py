@@ -68,10 +68,14 @@ OPTIONAL_COLUMNS = DRIVE_COLUMNS + ("q_min", "q_max") + tuple(LIMIT_COLUMNS)
 
 def _num(text, file, line, field, joint=None):
     try:
-        return float(text)
+        value = float(text)
     except ValueError:
         raise ModelError(f"line {line}: must be a number", file=file, joint=joint,
                          field=field, value=text) from None
+    if not np.isfinite(value):
+        raise ModelError(f"line {line}: must be finite", file=file, joint=joint,
+                         field=field, value=value)
+    return value
 
 
 def _nums(cells, count_ok, file, line, field):
@@ -86,11 +90,16 @@ def table_to_dict(text, file=None):
     """The DH table as the native format's dictionary (see toml.build_robot)."""
     import difflib
     rows = []
-    for n, row in enumerate(csv.reader(text.splitlines()), start=1):
-        cells = [c.strip() for c in row]
-        if not cells or all(c == "" for c in cells) or cells[0].startswith("#"):
-            continue
-        rows.append((n, cells))
+    reader = csv.reader(text.splitlines())
+    try:
+        for row in reader:
+            cells = [c.strip() for c in row]
+            if not cells or all(c == "" for c in cells) or cells[0].startswith("#"):
+                continue
+            rows.append((reader.line_num, cells))
+    except csv.Error as exc:      # e.g. a cell over the csv module's field size limit
+        raise ModelError(f"line {reader.line_num}: not readable as CSV ({exc})",
+                         file=file) from None
     data = {"format": 1, "robot": {}, "joint": []}
     convention = None
     header = None
@@ -174,6 +183,6 @@ def table_to_dict(text, file=None):
 def load_dh_csv(path, **options):
     """Read a standalone DH table file and return a validated Robot."""
     from .toml import build_robot
-    with open(path, encoding="utf-8") as f:
-        text = f.read()
+    from . import read_text
+    text = read_text(path)
     return build_robot(table_to_dict(text, file=os.fspath(path)), file=os.fspath(path), **options)

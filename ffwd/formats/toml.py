@@ -11,8 +11,9 @@ import warnings
 import numpy as np
 
 from ..errors import ModelError, ModelWarning, located
-from ..model import (Drive, Joint, Limits, Link, Payload, Robot, Tool, _from_params10,
+from ..model import (_HUGE, Drive, Joint, Limits, Link, Payload, Robot, Tool, _from_params10,
                      inertia_from_entries, params10)
+from . import read_text
 from . import transforms as tf
 from .dh import CONVENTIONS, dh_split
 
@@ -54,6 +55,26 @@ def _is_num(v):
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
+_FLOAT_MAX = float(np.finfo(float).max)
+FINITE_TABLES = ("origin", "dh")   # numbers that place frames: must be finite as written
+
+
+def _check_numbers(value, kind, field, loc):
+    """Numbers that fit a float; finite ones in the tables that place frames (so the
+    message names the field written, not the rotation computed from it)."""
+    nums = value if isinstance(value, list) else [value]
+    for v in nums:
+        if isinstance(v, int) and abs(v) > _FLOAT_MAX:
+            raise ModelError("too large for a float (over about 1.8e308)", field=field,
+                             value=value, **loc)
+    if kind in FINITE_TABLES:
+        if not all(np.isfinite(float(v)) for v in nums):
+            raise ModelError("must be finite", field=field, value=value, **loc)
+        if any(abs(v) > _HUGE for v in nums):
+            raise ModelError(f"must be below {_HUGE:g} in magnitude (a unit error?)",
+                             field=field, value=value, **loc)
+
+
 def _check_table(table, kind, path, loc):
     """Unknown keys (with a suggestion), missing keys and wrong types, recursively.
     `path` is the dotted field prefix; `loc` has file and joint for the error."""
@@ -79,6 +100,8 @@ def _check_table(table, kind, path, loc):
         elif want == "num" and not _is_num(value):
             raise ModelError(f"must be a number, got {type(value).__name__}", field=field,
                              value=value, **loc)
+        elif want == "num":
+            _check_numbers(value, kind, field, loc)
         elif want == "int" and (not isinstance(value, int) or isinstance(value, bool)):
             raise ModelError(f"must be an integer, got {type(value).__name__}", field=field,
                              value=value, **loc)
@@ -87,6 +110,7 @@ def _check_table(table, kind, path, loc):
             if not (isinstance(value, list) and len(value) == n and all(map(_is_num, value))):
                 raise ModelError(f"must be a list of {n} numbers", field=field, value=value,
                                  **loc)
+            _check_numbers(value, kind, field, loc)
     for key in REQUIRED.get(kind, ()):
         if key not in table:
             field = f"{path}.{key}" if path else key
@@ -272,11 +296,12 @@ def loads_toml(text, file=None, **options):
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ModelError(f"not valid TOML: {exc}", file=file) from None
+    except ValueError as exc:     # Python reads integers of at most 4300 digits
+        why = "an integer with too many digits to read" if "digits" in str(exc) else exc
+        raise ModelError(f"not valid TOML: {why}", file=file) from None
     return build_robot(data, file=file, **options)
 
 
 def load_toml(path, **options):
     """Read, validate and return a Robot from a native TOML model file."""
-    with open(path, encoding="utf-8") as f:
-        text = f.read()
-    return loads_toml(text, file=os.fspath(path), **options)
+    return loads_toml(read_text(path), file=os.fspath(path), **options)

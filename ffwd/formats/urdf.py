@@ -2,7 +2,9 @@
 
 Supported: revolute, continuous, prismatic and fixed joints; joint origins (xyz, rpy)
 and axes; link inertials (mass, origin with rotation, inertia); joint limits (lower,
-upper, effort, velocity) and dynamics (damping -> viscous, friction -> coulomb).
+upper, effort, velocity; an effort or velocity of 0 means "no limit", as URDF files
+commonly write it, a negative one is refused) and dynamics (damping -> viscous,
+friction -> coulomb).
 Refused with a located message: mimic joints, floating/planar joints, closed loops
 (a link with two parent joints), several root links. The root link's own inertial is
 ignored (it does not move; a warning if its mass is non-zero). The tool frame is the
@@ -19,6 +21,7 @@ import numpy as np
 
 from ..errors import ModelError, ModelWarning
 from ..model import inertia_from_entries
+from . import not_utf8
 from .toml import build_robot
 from .transforms import rpy_matrix
 
@@ -84,11 +87,22 @@ def _link_table(inertial):
                         "xy": I[0, 1], "xz": I[0, 2], "yz": I[1, 2]}}
 
 
+def _declares_encoding(data):
+    """True if the XML declaration names an encoding (then it need not be UTF-8)."""
+    head = data[:200].lstrip(b"\xef\xbb\xbf")
+    return head.startswith(b"<?xml") and b"encoding" in head.split(b"?>")[0]
+
+
 def urdf_to_dict(text, file=None, tool=None):
-    """The URDF text as the native format's dictionary (see toml.build_robot)."""
+    """The URDF text (str, or bytes as read from a file) as the native format's
+    dictionary (see toml.build_robot)."""
     try:
         root = ET.fromstring(text)
     except ET.ParseError as exc:
+        if isinstance(text, bytes) and not _declares_encoding(text) and not_utf8(text):
+            # the usual cause of an "invalid token": say so, with the position
+            raise ModelError(f"not valid XML: {not_utf8(text)} (or declare its encoding)",
+                             file=file) from None
         raise ModelError(f"not valid XML: {exc}", file=file) from None
     if root.tag != "robot":
         raise ModelError("the root element must be <robot>", file=file, value=root.tag)
@@ -200,7 +214,10 @@ def _limits(el, jtype, file, jn):
         return out
     for key, name in (("effort", "torque"), ("velocity", "velocity")):
         v = _attr_float(lim, key, file, jn, f"limit.{key}", 0.0)
-        if v > 0:
+        if v < 0:
+            raise ModelError("must be >= 0 (0 = no limit)", file=file, joint=jn,
+                             field=f"limit.{key}", value=v)
+        if v > 0:             # URDF files commonly write 0 for "no limit"
             out[name] = v
     if jtype != "continuous" and (lim.get("lower") is not None or lim.get("upper") is not None):
         lo = _attr_float(lim, "lower", file, jn, "limit.lower", 0.0)
@@ -220,6 +237,6 @@ def loads_urdf(text, file=None, tool=None, gravity=None):
 
 def load_urdf(path, **options):
     """Import a URDF file as a validated Robot."""
-    with open(path, encoding="utf-8") as f:
-        text = f.read()
-    return loads_urdf(text, file=os.fspath(path), **options)
+    with open(path, "rb") as f:
+        data = f.read()     # bytes: the XML parser honours a BOM and an encoding declaration
+    return loads_urdf(data, file=os.fspath(path), **options)
