@@ -10,7 +10,7 @@ from hypothesis import given, settings, strategies as st
 
 import ffwd.twin as twin
 from ffwd.twin.kinematics import body_poses
-from strategies import drives, links, robots, robots_with_states, states
+from strategies import drives, links, robots_with_states
 
 SETTINGS = settings(deadline=None)
 FD_MAX_DOF = 8   # the finite-difference properties cost O(dof) calls each; 8 joints suffice
