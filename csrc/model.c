@@ -395,6 +395,10 @@ ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real
         for (i = 0; i < nin; i++)
             if (!ffwd_finite_(in[i], n))
                 st = FFWD_E_NONFINITE;
+    if (st == FFWD_OK) /* in[0] is q in every per-cycle function */
+        for (i = 0; i < (int)n && nin > 0; i++)
+            if (!(in[0][i] < FFWD_Q_MAX_ && in[0][i] > -FFWD_Q_MAX_))
+                st = FFWD_E_ARG;
     if (st != FFWD_OK)
         for (i = 0; i < nout; i++)
             ffwd_zero_(out[i], shape_len(shape[i], n));

@@ -116,14 +116,23 @@ static inline uint32_t ffwd_stamp_of_(const ffwd_model *m)
 #define FFWD_EXP_MASK_ 0x7f800000u
 #define FFWD_EXP_ONE_  0x00800000u
 #define FFWD_TOP_BIT_  31u
+/* joint positions must satisfy |q| < FFWD_Q_MAX_ (2^14 rad or m in float, 2^20 in
+ * double, where sin/cos keep their accuracy): the exponent field plus FFWD_Q_BIG_
+ * carries into the sign bit exactly when |q| >= FFWD_Q_MAX_ or q is not finite */
+#define FFWD_Q_BIG_    ((uint32_t)(256 - (127 + 14)) << 23)
+#define FFWD_Q_MAX_    16384.0f
 #else
 #define FFWD_EXP_MASK_ 0x7ff0000000000000u
 #define FFWD_EXP_ONE_  0x0010000000000000u
 #define FFWD_TOP_BIT_  63u
+#define FFWD_Q_BIG_    ((uint64_t)(2048 - (1023 + 20)) << 52)
+#define FFWD_Q_MAX_    1048576.0
 #endif
 
-/* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, and the
- * inputs a (and b, c when not NULL) finite over dof entries. When it fails the caller
+/* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, the
+ * joint positions a finite with |a[i]| < FFWD_Q_MAX_ (sin/cos are exact to 2 ulp far
+ * beyond any real joint angle, but not for any double), and the inputs b, c (when not
+ * NULL) finite, over dof entries. When it fails the caller
  * runs ffwd_enter_, which finds the reason and zeroes the outputs. */
 static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a,
                               const ffwd_real *b, const ffwd_real *c)
@@ -142,7 +151,7 @@ static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffw
         uint64_t u;
 #endif
         memcpy(&u, a + i, sizeof u);
-        acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);
+        acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_Q_BIG_);
         if (b != NULL) {
             memcpy(&u, b + i, sizeof u);
             acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);

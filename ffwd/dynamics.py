@@ -48,13 +48,22 @@ def _as_state(name, value, n):
     return a
 
 
+# The C core refuses joint positions with |q| >= 2^20 (its sin/cos range, FFWD_E_ARG).
+Q_MAX = 2.0 ** 20
+
+
 def _nonfinite_message(names, arrays):
-    """'q[3, 2] is nan' for the first non-finite entry, or None."""
+    """'q[3, 2] is nan' for the first non-finite entry (or joint position out of the
+    core's range), or None."""
     for name, a in zip(names, arrays):
         bad = ~np.isfinite(a)
+        if name == "q":
+            bad |= np.abs(np.nan_to_num(a)) >= Q_MAX
         if bad.any():
             idx = tuple(int(i) for i in np.argwhere(bad)[0])
             where = ", ".join(str(i) for i in idx)
+            if np.isfinite(a[idx]):
+                return f"{name}[{where}] = {a[idx]:g} is out of range (|q| < {Q_MAX:g})"
             return f"{name}[{where}] is {a[idx]}"
     return None
 

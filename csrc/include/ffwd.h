@@ -37,7 +37,7 @@ extern "C" {
 
 typedef enum ffwd_status {
     FFWD_OK = 0,
-    FFWD_E_ARG = 1,        /* null pointer or argument out of range */
+    FFWD_E_ARG = 1,        /* null pointer, or argument out of range (e.g. |q| >= 2^20, 2^14 in float) */
     FFWD_E_NONFINITE = 2,  /* NaN or Inf in an input */
     FFWD_E_MODEL = 3,      /* model fails ffwd_model_check, or work not bound to this model */
     FFWD_E_SINGULAR = 4,   /* a matrix that must be invertible is not */

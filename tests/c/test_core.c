@@ -157,6 +157,25 @@ static void test_args(void)
                 arr[2] = keep;
             }
     }
+    /* joint positions beyond the accurate range of sin/cos: E_ARG and zero outputs; just
+     * inside the range the result is finite */
+    {
+#ifdef FFWD_SINGLE
+        const ffwd_real big = (ffwd_real)16384.0, inside = (ffwd_real)16000.0;
+#else
+        const ffwd_real big = (ffwd_real)1048576.0, inside = (ffwd_real)1.0e6;
+#endif
+        ffwd_real keep = q[1];
+        q[1] = -big;
+        for (i = 0; i < N6; i++) tau[i] = 7;
+        CHECK(ffwd_inverse_dynamics(&m, &w, q, qd, qdd, tau) == FFWD_E_ARG && all_zero(tau, N6), "id huge q");
+        CHECK(ffwd_gravity_torque(&m, &w, q, tau) == FFWD_E_ARG && all_zero(tau, N6), "gravity huge q");
+        CHECK(ffwd_tool_pose(&m, &w, q, T) == FFWD_E_ARG && all_zero(T, 16), "pose huge q");
+        q[1] = inside;
+        CHECK(ffwd_inverse_dynamics(&m, &w, q, qd, qdd, tau) == FFWD_OK && !all_zero(tau, N6), "id large q");
+        for (i = 0; i < N6; i++) CHECK(tau[i] == tau[i] && tau[i] - tau[i] == 0, "id large q finite");
+        q[1] = keep;
+    }
     /* unbound work */
     memset(&w2, 0, sizeof w2);
     CHECK(ffwd_inverse_dynamics(&m, &w2, q, qd, qdd, tau) == FFWD_E_MODEL && all_zero(tau, N6), "unbound work");
