@@ -27,13 +27,15 @@ def _column_block(header, rows, prefix, names, path, required):
     return rows[:, idx]
 
 
-def read_trajectory(path, joint_names):
-    """Read a trajectory CSV for a robot with these joint names (in order)."""
+def read_csv_rows(path):
+    """Header and the non-blank data rows of a UTF-8 CSV file, each row with its line
+    number: (header, [(line, cells), ...]). Located ValueError for unreadable files,
+    an empty file and repeated column names."""
     path = str(path)
     reader = csv.reader(io.StringIO(read_text(path, error=ValueError), newline=""))
     try:
         header = [h.strip() for h in next(reader)]
-        body = [r for r in reader if r and any(c.strip() for c in r)]
+        lines = [(n, r) for n, r in enumerate(reader, start=2) if r and any(c.strip() for c in r)]
     except StopIteration:
         raise ValueError(f"{path}: empty file") from None
     except csv.Error as exc:      # e.g. a cell over the csv module's field size limit
@@ -42,6 +44,14 @@ def read_trajectory(path, joint_names):
         if name and name in header[:j]:
             raise ValueError(f"{path}: column '{name}' appears more than once (columns "
                              f"{header.index(name) + 1} and {j + 1})")
+    return header, lines
+
+
+def read_trajectory(path, joint_names):
+    """Read a trajectory CSV for a robot with these joint names (in order)."""
+    path = str(path)
+    header, lines = read_csv_rows(path)
+    body = [r for _, r in lines]
     if "t" not in header:
         raise ValueError(f"{path}: missing column 't'")
     if len(body) < 2:

@@ -93,7 +93,10 @@ def _kt(text, robot):
     if text is None:
         return None
     if "=" not in text:
-        return float(text)
+        try:
+            return float(text)
+        except ValueError:
+            raise ValueError(f"--kt: not a number: {text!r} (give N m/A, or joint=value,...)") from None
     out = {}
     for part in text.split(","):
         name, _, val = part.partition("=")

@@ -55,17 +55,8 @@ def _kt_for(torque_constants, joint, path, column):
 
 
 def _parse(path):
-    with open(path, newline="") as fh:
-        reader = csv.reader(fh)
-        try:
-            header = [h.strip() for h in next(reader)]
-        except StopIteration:
-            raise ValueError(f"{path}: empty file") from None
-        lines = [(n, r) for n, r in enumerate(reader, start=2) if r and any(c.strip() for c in r)]
-    dup = sorted({h for h in header if header.count(h) > 1})
-    if dup:
-        raise ValueError(f"{path}: column '{dup[0]}' appears more than once in the header")
-    return header, lines
+    from ..trajio import read_csv_rows
+    return read_csv_rows(path)
 
 
 def read_log(path, robot, torque_constants=None, max_gap=None):

@@ -1,0 +1,1 @@
+"""ffwd benchmarks: print figures, never assert times (see docs/bench.md)."""

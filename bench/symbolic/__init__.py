@@ -1,0 +1,1 @@
+"""Symbolic inverse dynamics: a sympy derivation emitted as C, the yardstick for ffwd's speed."""
