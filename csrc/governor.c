@@ -1,0 +1,703 @@
+/* governor.c - the online speed-override governor (see ffwd_governor.h).
+ *
+ * Notation: kappa = ds/dt (the applied override), x = kappa^2, u = d kappa/dt.
+ * Along the path every limit is a row  alpha u + beta x + gamma kappa + delta <= 0
+ * (torque: alpha = a = M q', beta = b = M q'' + C(q, q') q', gamma = viscous q',
+ * delta = c + Coulomb - tau_max; acceleration: alpha = q', beta = q''), giving an
+ * interval of u for each kappa. Per pushed sample we store its braking rows and its
+ * largest admissible x; a backward pass over the window (x = 0 at its last sample)
+ * gives the safe curve Xs; each step picks u by a jerk-bounded tracker of the
+ * command and clips it into the limits (the torque exactly: tau0 + a u from the
+ * inverse dynamics at the current point) and under the safe curve.
+ * ffwd/twin/governor.py is the same algorithm in numpy-free Python, operation for
+ * operation; tests/test_governor_equivalence.py keeps them equal.
+ */
+#include "spatial.h"
+
+#define BIG FR(1e30)
+#define CAP FR(1e15)
+#define ALPHA_TOL FR(1e-12)
+#define REST_TOL FR(1e-12)
+
+#if defined(__GNUC__) || defined(__clang__)
+#ifdef FFWD_SINGLE
+#define GOV_SQRT(x) __builtin_sqrtf(x)
+#else
+#define GOV_SQRT(x) __builtin_sqrt(x)
+#endif
+#else
+/* Newton's iteration from a power-of-two start; enough steps for double precision. */
+static ffwd_real gov_sqrt_newton(ffwd_real x)
+{
+    ffwd_real r = FR(1);
+    int i;
+    if (!(x > FR(0)))
+        return FR(0);
+    for (i = 0; i < 1100 && r * r < x; i++)
+        r *= FR(2);
+    for (i = 0; i < 1100 && r * r > FR(4) * x; i++)
+        r *= FR(0.5);
+    for (i = 0; i < 8; i++)
+        r = FR(0.5) * (r + x / r);
+    return r;
+}
+#define GOV_SQRT(x) gov_sqrt_newton(x)
+#endif
+
+static inline ffwd_real sqrt0(ffwd_real x) { return GOV_SQRT(x > FR(0) ? x : FR(0)); }
+static inline ffwd_real minr(ffwd_real a, ffwd_real b) { return b < a ? b : a; }
+static inline ffwd_real maxr(ffwd_real a, ffwd_real b) { return b > a ? b : a; }
+static inline ffwd_real absr(ffwd_real a) { return a < FR(0) ? -a : a; }
+static inline ffwd_real sgnr(ffwd_real a) { return a > FR(0) ? FR(1) : (a < FR(0) ? FR(-1) : FR(0)); }
+
+/* Largest k >= 0 with A t^2 + B t + C <= 0 on all of [0, k], given C <= 0
+ * (0 when C > 0, CAP when there is no positive root). */
+static inline ffwd_real root1(ffwd_real A, ffwd_real B, ffwd_real C)
+{
+    ffwd_real disc = B * B - FR(4) * A * C;
+    ffwd_real r;
+    if (C > FR(0))
+        return FR(0);
+    if (B > FR(0))
+        r = disc >= FR(0) ? (FR(-2) * C) / (B + sqrt0(disc)) : CAP;
+    else
+        r = A > FR(0) ? (sqrt0(disc) - B) / (FR(2) * A) : CAP;
+    return minr(r, CAP);
+}
+
+/* root1 squared: the largest x = k^2; without a square root when B = 0. */
+static inline ffwd_real xroot(ffwd_real A, ffwd_real B, ffwd_real C)
+{
+    ffwd_real r;
+    if (C > FR(0))
+        return FR(0);
+    if (B == FR(0))
+        return A > FR(0) ? minr(-C / A, BIG) : BIG;
+    r = root1(A, B, C);
+    return r * r;
+}
+
+static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
+{
+    uint32_t i = g->head + k;     /* head, k < horizon: one wrap at most */
+    return &g->slot[i >= g->cfg.horizon ? i - g->cfg.horizon : i];
+}
+
+static int cfg_finite(const ffwd_gov_config *c)
+{
+    ffwd_real v[6];
+    v[0] = c->dt; v[1] = c->ds; v[2] = c->override_max;
+    v[3] = c->rate_max; v[4] = c->rate_rate_max; v[5] = c->margin;
+    return ffwd_finite_(v, 6);
+}
+
+ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_work *work,
+                               const ffwd_gov_config *cfg)
+{
+    const uint32_t need = FFWD_LIM_TORQUE | FFWD_LIM_VELOCITY | FFWD_LIM_ACCELERATION;
+    ffwd_real reach;
+    uint32_t j, p;
+    if (g == NULL)
+        return FFWD_E_ARG;
+    g->model = NULL;
+    g->work = NULL;
+    g->count = 0;
+    g->head = 0;
+    g->fault_index = 0;
+    g->fault_joint = -1;
+    g->fault_limit = 0;
+    if (model == NULL || work == NULL || cfg == NULL)
+        return FFWD_E_ARG;
+    if (!cfg_finite(cfg))
+        return FFWD_E_NONFINITE;
+    if (!(cfg->dt > FR(0)) || !(cfg->ds > FR(0)) || cfg->horizon < 2u
+        || cfg->horizon > (uint32_t)FFWD_GOV_MAX_HORIZON || !(cfg->override_max > FR(0))
+        || !(cfg->rate_max > FR(0)) || !(cfg->rate_rate_max > FR(0))
+        || !(cfg->margin >= FR(0)) || !(cfg->margin < FR(0.5)))
+        return FFWD_E_ARG;
+    if (!ffwd_bound_(model, work))
+        return FFWD_E_MODEL;
+    for (j = 0; j < model->dof; j++) {
+        uint32_t missing = need & ~model->joint[j].has_limits;
+        if (missing != 0u) {
+            g->fault_joint = (int32_t)j;
+            g->fault_limit = missing & (0u - missing);   /* lowest missing bit */
+            return FFWD_E_LIMIT;
+        }
+    }
+    g->model = model;
+    g->work = work;
+    g->cfg = *cfg;
+    g->base = 0;
+    g->pushed = 0;
+    g->finished = 0;
+    g->dirty = 0;
+    g->sigma = FR(0);
+    g->kappa = FR(0);
+    g->u = FR(0);
+    /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
+    reach = cfg->override_max * cfg->dt + FR(0.5) * cfg->rate_max * cfg->dt * cfg->dt;
+    g->pieces = 1;
+    for (p = 1; p < cfg->horizon - 1u; p++)
+        if ((ffwd_real)(p - 1u) * cfg->ds < reach)
+            g->pieces = p + 1u;
+    if (g->pieces > cfg->horizon - 1u)
+        g->pieces = cfg->horizon - 1u;
+    return FFWD_OK;
+}
+
+uint32_t ffwd_governor_room(const ffwd_governor *g)
+{
+    if (g == NULL || g->model == NULL || g->finished)
+        return 0;
+    return g->cfg.horizon - g->count;
+}
+
+ffwd_status ffwd_governor_finish(ffwd_governor *g)
+{
+    if (g == NULL || g->model == NULL || g->count == 0u)
+        return FFWD_E_ARG;
+    g->finished = 1;
+    return FFWD_OK;
+}
+
+static ffwd_status push_fault(ffwd_governor *g, int32_t joint, uint32_t limit)
+{
+    g->fault_index = g->pushed;
+    g->fault_joint = joint;
+    g->fault_limit = limit;
+    return FFWD_E_INFEASIBLE;
+}
+
+ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_real *dq,
+                               const ffwd_real *ddq, const ffwd_real *dddq)
+{
+    const ffwd_model *m;
+    ffwd_gov_slot *sl;
+    ffwd_real a[FFWD_MAX_DOF], grav[FFWD_MAX_DOF], iner[FFWD_MAX_DOF], zero[FFWD_MAX_DOF];
+    ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];
+    ffwd_real uB[FFWD_GOV_COLS], uG[FFWD_GOV_COLS], uD[FFWD_GOV_COLS];
+    ffwd_real keep, ds, X, r;
+    uint32_t n, j, p, i, cols;
+    ffwd_status st;
+    if (g == NULL || g->model == NULL || q == NULL || dq == NULL || ddq == NULL || dddq == NULL)
+        return FFWD_E_ARG;
+    if (g->finished || g->count >= g->cfg.horizon)
+        return FFWD_E_ARG;
+    m = g->model;
+    n = m->dof;
+    if (!ffwd_finite_(q, n) || !ffwd_finite_(dq, n) || !ffwd_finite_(ddq, n) || !ffwd_finite_(dddq, n))
+        return FFWD_E_NONFINITE;
+    for (j = 0; j < n; j++) {
+        const ffwd_joint *J = &m->joint[j];
+        if ((J->has_limits & FFWD_LIM_POSITION) && (q[j] < J->q_min || q[j] > J->q_max))
+            return push_fault(g, (int32_t)j, FFWD_LIM_POSITION);
+    }
+    /* a = M q' = ID(q, 0, q') - g ;  b = M q'' + C(q, q') q' = ID(q, q', q'') - g - friction(q') */
+    ffwd_zero_(zero, FFWD_MAX_DOF);
+    st = ffwd_gravity_torque(m, g->work, q, grav);
+    if (st != FFWD_OK)
+        return st;
+    st = ffwd_inverse_dynamics(m, g->work, q, zero, dq, a);
+    if (st != FFWD_OK)
+        return st;
+    st = ffwd_inverse_dynamics(m, g->work, q, dq, ddq, iner);
+    if (st != FFWD_OK)
+        return st;
+    sl = slot_at(g, g->count);
+    /* the safe curve keeps twice the margin: a state on it can follow it between
+     * samples and still meet the limits reduced once (checked at every step) */
+    keep = FR(1) - FR(2) * g->cfg.margin;
+    ds = g->cfg.ds;
+    cols = 2u * n + 1u;
+    X = g->cfg.override_max * g->cfg.override_max;   /* never above the largest override */
+    for (j = 0; j < n; j++) {
+        sl->q[j] = q[j];
+        sl->dq[j] = dq[j];
+        sl->ddq[j] = ddq[j];
+        sl->dddq[j] = dddq[j];
+        const ffwd_joint *J = &m->joint[j];
+        ffwd_real ramp = dq[j] / J->coulomb_band;
+        ramp = ramp > FR(1) ? FR(1) : (ramp < FR(-1) ? FR(-1) : ramp);
+        sl->a[j] = a[j] - grav[j];
+        sl->b[j] = iner[j] - grav[j] - (J->viscous * dq[j] + J->coulomb * ramp);
+        sl->c[j] = grav[j];
+    }
+    /* rows: column p < n torque of joint p, n <= p < 2n acceleration of joint p - n, 2n rate */
+    for (p = 0; p < cols; p++) {
+        ffwd_real al, be, ga, dp, dm, sa;
+        int32_t jj = -1;
+        uint32_t lim = 0;
+        int pure;
+        if (p < n) {
+            const ffwd_joint *J = &m->joint[p];
+            ffwd_real fc = J->coulomb * sgnr(dq[p]);
+            ffwd_real tau = keep * J->tau_max;
+            al = sl->a[p];
+            be = sl->b[p];
+            ga = J->viscous * dq[p];
+            dp = sl->c[p] + maxr(fc, FR(0)) - tau;
+            dm = -sl->c[p] - minr(fc, FR(0)) - tau;
+            jj = (int32_t)p;
+            lim = FFWD_LIM_TORQUE;
+        } else if (p < 2u * n) {
+            const ffwd_joint *J = &m->joint[p - n];
+            al = dq[p - n];
+            be = ddq[p - n];
+            ga = FR(0);
+            dp = -(keep * J->a_max);
+            dm = dp;
+            jj = (int32_t)(p - n);
+            lim = FFWD_LIM_ACCELERATION;
+        } else {
+            al = FR(1);
+            be = FR(0);
+            ga = FR(0);
+            dp = -g->cfg.rate_max;
+            dm = dp;
+        }
+        pure = absr(al) <= ALPHA_TOL * (FR(1) + absr(dp) + absr(dm));
+        sa = pure ? FR(1) : al;
+        uB[p] = pure ? FR(0) : -be / sa;
+        uG[p] = pure ? FR(0) : -ga / sa;
+        lB[p] = uB[p];
+        lG[p] = uG[p];
+        if (pure) {
+            uD[p] = BIG;
+            lD[p] = -BIG;
+            if (dp > REST_TOL || dm > REST_TOL)
+                return push_fault(g, jj, lim);
+            X = minr(X, xroot(be, ga, dp));
+            X = minr(X, xroot(-be, -ga, dm));
+        } else if (al > FR(0)) {
+            uD[p] = -dp / sa;
+            lD[p] = dm / sa;
+        } else {
+            uD[p] = dm / sa;
+            lD[p] = -dp / sa;
+        }
+        if (lD[p] > REST_TOL || uD[p] < -REST_TOL)
+            return push_fault(g, jj, lim);
+    }
+    /* velocity limits bound x alone */
+    for (j = 0; j < n; j++) {
+        ffwd_real vq = keep * m->joint[j].v_max;
+        ffwd_real d = absr(dq[j]);
+        ffwd_real xv = BIG;
+        if (d * FR(1e-15) < vq) {
+            ffwd_real t = vq / maxr(d, vq * FR(1e-15));
+            xv = minr(t * t, BIG);
+        }
+        X = minr(X, xv);
+    }
+    /* every lower bound under every upper bound; next x >= 0 reachable */
+    for (i = 0; i < cols; i++) {
+        for (p = 0; p < cols; p++) {
+            if (p != i)   /* a column's own two bounds never cross */
+                X = minr(X, xroot(lB[i] - uB[p], lG[i] - uG[p], lD[i] - uD[p]));
+        }
+    }
+    for (p = 0; p < cols; p++)
+        X = minr(X, xroot(FR(-1) - FR(2) * ds * uB[p], -(FR(2) * ds * uG[p]), -(FR(2) * ds * uD[p])));
+    /* where q'_j or a_j changes sign between the previous sample and this one, the
+     * limit of joint j bounds x alone somewhere in between: bound x at both samples */
+    if (g->count > 0u) {
+        ffwd_gov_slot *pv = slot_at(g, g->count - 1u);
+        for (j = 0; j < n; j++) {
+            const ffwd_joint *J = &m->joint[j];
+            if (pv->dq[j] * dq[j] <= FR(0)) {
+                ffwd_real qq = maxr(absr(pv->ddq[j]), absr(ddq[j]));
+                ffwd_real xb = qq > FR(0) ? minr(keep * J->a_max / qq, BIG) : BIG;
+                X = minr(X, xb);
+                pv->x_max = minr(pv->x_max, xb);
+            }
+            if (pv->a[j] * sl->a[j] <= FR(0)) {
+                ffwd_real bb = maxr(absr(pv->b[j]), absr(sl->b[j]));
+                ffwd_real cc = maxr(absr(pv->c[j]), absr(sl->c[j]));
+                ffwd_real vm = J->viscous * maxr(absr(pv->dq[j]), absr(dq[j]));
+                ffwd_real num = keep * J->tau_max - cc - J->coulomb;
+                if (num > FR(0)) {
+                    r = xroot(bb, vm, -num);
+                    X = minr(X, r);
+                    pv->x_max = minr(pv->x_max, r);
+                }
+            }
+        }
+    }
+    /* keep the lower bounds that are the largest somewhere on [0, sqrt(X)] */
+    sl->ncols = 0;
+    r = sqrt0(X);
+    for (i = 0; i < cols; i++) {
+        int dominated = 0;
+        for (p = 0; p < cols; p++) {
+            ffwd_real dB = lB[p] - lB[i], dG = lG[p] - lG[i], dD = lD[p] - lD[i];
+            int ok;
+            if (p == i)
+                continue;
+            if (dB == FR(0) && dG == FR(0) && dD == FR(0)) {
+                ok = p < i;
+            } else {
+                ok = dD >= FR(0) && dB * r * r + dG * r + dD >= FR(0);
+                if (ok && dB > FR(0)) {
+                    ffwd_real kv = -dG / (FR(2) * dB);
+                    if (kv > FR(0) && kv < r)
+                        ok = dB * kv * kv + dG * kv + dD >= FR(0);
+                }
+            }
+            dominated |= ok;
+        }
+        if (!dominated) {
+            sl->bA[sl->ncols] = FR(1) + FR(2) * ds * lB[i];
+            sl->bB[sl->ncols] = FR(2) * ds * lG[i];
+            sl->bC[sl->ncols] = FR(2) * ds * lD[i];
+            sl->ncols++;
+        }
+    }
+    sl->x_max = X;
+    sl->x_safe = FR(0);
+    g->count++;
+    g->pushed++;
+    g->dirty = 1;
+    return FFWD_OK;
+}
+
+/* Xs over the window: Xs = 0 at the last sample, then per sample the largest x <= X
+ * from which braking at the lower bound of this sample reaches the next Xs, and
+ * whose straight line in (s, x) to the next Xs also respects the next sample's
+ * lower bound (limits hold at both ends of every segment of the safe curve). */
+static void backward_pass(ffwd_governor *g)
+{
+    uint32_t i, p;
+    ffwd_real X1, L1, k1;
+    const ffwd_gov_slot *next;
+    if (g->count == 0u)
+        return;
+    next = slot_at(g, g->count - 1u);
+    slot_at(g, g->count - 1u)->x_safe = FR(0);
+    X1 = FR(0);
+    for (i = g->count - 1u; i > 0u; i--) {
+        ffwd_gov_slot *sl = slot_at(g, i - 1u);
+        ffwd_real best = sl->x_max;
+        k1 = sqrt0(X1);
+        L1 = -BIG;                      /* 2 ds times the next sample's lower bound at X1 */
+        for (p = 0; p < sl->ncols; p++)
+            best = minr(best, xroot(sl->bA[p], sl->bB[p], sl->bC[p] - X1));
+        for (p = 0; p < next->ncols; p++)
+            L1 = maxr(L1, (next->bA[p] - FR(1)) * X1 + next->bB[p] * k1 + next->bC[p]);
+        best = minr(best, maxr(X1 - L1, FR(0)));
+        sl->x_safe = best;
+        X1 = best;
+        next = sl;
+    }
+    g->dirty = 0;
+}
+
+/* Quintic Hermite basis (value, d/dth, d2, d3) at th for p0, v0, w0, w1, v1, p1. */
+static void hermite_basis(ffwd_real th, ffwd_real H[4][6])
+{
+    ffwd_real t2 = th * th, t3 = t2 * th, t4 = t3 * th, t5 = t4 * th;
+    H[0][0] = FR(1) - FR(10) * t3 + FR(15) * t4 - FR(6) * t5;
+    H[0][1] = th - FR(6) * t3 + FR(8) * t4 - FR(3) * t5;
+    H[0][2] = FR(0.5) * t2 - FR(1.5) * t3 + FR(1.5) * t4 - FR(0.5) * t5;
+    H[0][3] = FR(0.5) * t3 - t4 + FR(0.5) * t5;
+    H[0][4] = FR(-4) * t3 + FR(7) * t4 - FR(3) * t5;
+    H[0][5] = FR(10) * t3 - FR(15) * t4 + FR(6) * t5;
+    H[1][0] = FR(-30) * t2 + FR(60) * t3 - FR(30) * t4;
+    H[1][1] = FR(1) - FR(18) * t2 + FR(32) * t3 - FR(15) * t4;
+    H[1][2] = th - FR(4.5) * t2 + FR(6) * t3 - FR(2.5) * t4;
+    H[1][3] = FR(1.5) * t2 - FR(4) * t3 + FR(2.5) * t4;
+    H[1][4] = FR(-12) * t2 + FR(28) * t3 - FR(15) * t4;
+    H[1][5] = FR(30) * t2 - FR(60) * t3 + FR(30) * t4;
+    H[2][0] = FR(-60) * th + FR(180) * t2 - FR(120) * t3;
+    H[2][1] = FR(-36) * th + FR(96) * t2 - FR(60) * t3;
+    H[2][2] = FR(1) - FR(9) * th + FR(18) * t2 - FR(10) * t3;
+    H[2][3] = FR(3) * th - FR(12) * t2 + FR(10) * t3;
+    H[2][4] = FR(-24) * th + FR(84) * t2 - FR(60) * t3;
+    H[2][5] = FR(60) * th - FR(180) * t2 + FR(120) * t3;
+    H[3][0] = FR(-60) + FR(360) * th - FR(360) * t2;
+    H[3][1] = FR(-36) + FR(192) * th - FR(180) * t2;
+    H[3][2] = FR(-9) + FR(36) * th - FR(30) * t2;
+    H[3][3] = FR(3) - FR(24) * th + FR(30) * t2;
+    H[3][4] = FR(-24) + FR(168) * th - FR(180) * t2;
+    H[3][5] = FR(60) - FR(360) * th + FR(360) * t2;
+}
+
+/* Largest u whose constant-u motion over this cycle stays under the safe curve. */
+static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x)
+{
+    const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds;
+    const ffwd_real e0 = g->kappa * dt, e1 = FR(0.5) * dt * dt;
+    ffwd_real cap = -g->kappa / dt;          /* stopping within the cycle is always safe */
+    uint32_t j;
+    for (j = 0; j < g->pieces; j++) {
+        if (j + 1u < g->count) {
+            ffwd_real Sj = (ffwd_real)j * ds;
+            ffwd_real Xa = slot_at(g, j)->x_safe, Xb = slot_at(g, j + 1u)->x_safe;
+            ffwd_real mj = (Xb - Xa) / ds;
+            ffwd_real A = FR(2) * e1;
+            ffwd_real B = FR(2) * e0 - mj * e1;
+            ffwd_real C = x - Xa - mj * (g->sigma + e0 - Sj);
+            ffwd_real disc = B * B - FR(4) * A * C;
+            if (disc >= FR(0)) {
+                ffwd_real sq = sqrt0(disc);
+                ffwd_real qq = B >= FR(0) ? FR(-0.5) * (B + sq) : FR(-0.5) * (B - sq);
+                ffwd_real r1 = qq != FR(0) ? qq / A : FR(0);
+                ffwd_real r2 = qq != FR(0) ? C / qq : FR(0);
+                ffwd_real rp = maxr(r1, r2), rm = minr(r1, r2);
+                ffwd_real ulo = (Sj - g->sigma - e0) / e1;
+                ffwd_real uhi = (Sj + ds - g->sigma - e0) / e1;
+                if (maxr(rm, ulo) <= minr(rp, uhi))
+                    cap = maxr(cap, minr(rp, uhi));
+            }
+        }
+    }
+    return cap;
+}
+
+ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_gov_output *out)
+{
+    const ffwd_model *m;
+    ffwd_gov_slot *s0, *s1;
+    ffwd_real H[4][6];
+    ffwd_real d1[FFWD_MAX_DOF], d2[FFWD_MAX_DOF], d3[FFWD_MAX_DOF];
+    ffwd_real tau0[FFWD_MAX_DOF], ta[FFWD_MAX_DOF], gq[FFWD_MAX_DOF], zq[FFWD_MAX_DOF];
+    ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
+    ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss;
+    uint32_t n, j, k, flags = 0, jerk_bad = 0;
+    ffwd_status st;
+    if (out == NULL)
+        return FFWD_E_ARG;
+    ffwd_zero_(out->q, FFWD_MAX_DOF);
+    ffwd_zero_(out->qd, FFWD_MAX_DOF);
+    ffwd_zero_(out->qdd, FFWD_MAX_DOF);
+    ffwd_zero_(out->tau, FFWD_MAX_DOF);
+    out->s = FR(0);
+    out->override = FR(0);
+    out->rate = FR(0);
+    out->rate_rate = FR(0);
+    out->safe_override = FR(0);
+    out->flags = 0;
+    if (g == NULL || g->model == NULL || g->count == 0u)
+        return FFWD_E_ARG;
+    if (!ffwd_finite_(&override_cmd, 1))
+        return FFWD_E_NONFINITE;
+    m = g->model;
+    n = m->dof;
+    dt = g->cfg.dt;
+    ds = g->cfg.ds;
+    U = g->cfg.rate_max;
+    V = g->cfg.rate_rate_max;
+    keep = FR(1) - g->cfg.margin;
+    cmd = minr(maxr(override_cmd, FR(0)), g->cfg.override_max);
+    if (g->dirty)
+        backward_pass(g);
+    s0 = slot_at(g, 0);
+    if (g->count < 2u) {
+        /* at the last sample of the window: hold still there */
+        for (j = 0; j < n; j++)
+            out->q[j] = s0->q[j];
+        st = ffwd_inverse_dynamics(m, g->work, out->q, out->qd, out->qdd, out->tau);
+        if (st != FFWD_OK) {
+            ffwd_zero_(out->q, FFWD_MAX_DOF);
+            return st;
+        }
+        out->s = (ffwd_real)g->base * ds;
+        out->rate_rate = -g->u / dt;
+        out->flags = FFWD_GOV_AT_REST | (g->finished ? FFWD_GOV_DONE : FFWD_GOV_STARVED);
+        g->kappa = FR(0);
+        g->u = FR(0);
+        g->sigma = FR(0);
+        return FFWD_OK;
+    }
+    s1 = slot_at(g, 1);
+    th = g->sigma / ds;
+    hermite_basis(th, H);
+    for (j = 0; j < n; j++) {
+        ffwd_real P[6];
+        ffwd_real val[4];
+        uint32_t r;
+        P[0] = s0->q[j];
+        P[1] = ds * s0->dq[j];
+        P[2] = ds * ds * s0->ddq[j];
+        P[3] = ds * ds * s1->ddq[j];
+        P[4] = ds * s1->dq[j];
+        P[5] = s1->q[j];
+        for (r = 0; r < 4u; r++)
+            val[r] = H[r][0] * P[0] + H[r][1] * P[1] + H[r][2] * P[2] + H[r][3] * P[3]
+                     + H[r][4] * P[4] + H[r][5] * P[5];
+        out->q[j] = val[0];
+        d1[j] = val[1] / ds;
+        d2[j] = val[2] / (ds * ds);
+        d3[j] = val[3] / (ds * ds * ds);
+    }
+    kap = g->kappa;
+    x = kap * kap;
+    /* the torque at this point is affine in u: tau = tau0 + a u, with tau0 the inverse
+     * dynamics at (q, q' kappa, q'' x) and a = M q' = ID(q, 0, q') - g (exact, friction
+     * included, no interpolation between samples) */
+    for (j = 0; j < n; j++) {
+        out->qd[j] = d1[j] * kap;
+        out->qdd[j] = d2[j] * x;
+        zq[j] = FR(0);
+    }
+    st = ffwd_inverse_dynamics(m, g->work, out->q, out->qd, out->qdd, tau0);
+    if (st == FFWD_OK)
+        st = ffwd_inverse_dynamics(m, g->work, out->q, zq, d1, ta);
+    if (st == FFWD_OK)
+        st = ffwd_gravity_torque(m, g->work, out->q, gq);
+    if (st != FFWD_OK) {
+        ffwd_zero_(out->q, FFWD_MAX_DOF);
+        ffwd_zero_(out->qd, FFWD_MAX_DOF);
+        ffwd_zero_(out->qdd, FFWD_MAX_DOF);
+        return st;
+    }
+    /* (a) limits at the current point: an interval [lo, hi] of u */
+    lo = -U;
+    hi = U;
+    xss = BIG;
+    for (k = 0; k < 2u * n; k++) {
+        ffwd_real al, be, ga, dp, dm, ev;
+        j = k < n ? k : k - n;
+        if (k < n) {
+            const ffwd_joint *J = &m->joint[j];
+            ffwd_real fc = J->coulomb * sgnr(d1[j]);
+            ffwd_real tau = keep * J->tau_max;
+            ffwd_real cc = s0->c[j] + th * (s1->c[j] - s0->c[j]);
+            al = s0->a[j] + th * (s1->a[j] - s0->a[j]);
+            be = s0->b[j] + th * (s1->b[j] - s0->b[j]);
+            ga = J->viscous * d1[j];
+            dp = cc + maxr(fc, FR(0)) - tau;
+            dm = -cc - minr(fc, FR(0)) - tau;
+        } else {
+            al = d1[j];
+            be = d2[j];
+            ga = FR(0);
+            dp = -(keep * m->joint[j].a_max);
+            dm = dp;
+        }
+        ev = be * x + ga * kap;
+        /* largest x at which holding the speed (u = 0) is admissible here */
+        xss = minr(xss, minr(xroot(be, ga, dp), xroot(-be, -ga, dm)));
+        if (k < n) {    /* the exact torque rows: a u + tau0 within +-tau_max */
+            al = ta[j] - gq[j];
+            ev = tau0[j];
+            dp = -(keep * m->joint[j].tau_max);
+            dm = dp;
+        }
+        if (absr(al) <= ALPHA_TOL * (FR(1) + absr(dp) + absr(dm))) {
+            if (ev + dp > REST_TOL || -ev + dm > REST_TOL)
+                flags |= FFWD_GOV_CONFLICT;
+        } else if (al > FR(0)) {
+            hi = minr(hi, (-dp - ev) / al);
+            lo = maxr(lo, (dm - ev) / al);
+        } else {
+            lo = maxr(lo, (-dp - ev) / al);
+            hi = minr(hi, (dm - ev) / al);
+        }
+    }
+    /* velocity limits at the end of this cycle (q' there predicted to first order) */
+    for (j = 0; j < n; j++) {
+        ffwd_real d1n = absr(d1[j] + d2[j] * kap * dt);
+        ffwd_real vq = keep * m->joint[j].v_max;
+        if (d1n * FR(1e-15) < vq)
+            hi = minr(hi, (vq / maxr(d1n, vq * FR(1e-15)) - kap) / dt);
+    }
+    /* (c) under the safe curve at the end of this cycle */
+    cap = safety_cap(g, x);
+    /* tracker target: the command, or the lowest point of the safe curve over the
+     * distance covered while u swings through its range (jerk-bounded anticipation) */
+    look = g->sigma + kap * (maxr(g->u, FR(0)) / V + dt);
+    xa = s0->x_safe + th * (s1->x_safe - s0->x_safe);
+    for (k = 1; k < g->cfg.horizon; k++) {
+        if (k < g->count) {
+            ffwd_real Sk = (ffwd_real)k * ds;
+            ffwd_real Xk = slot_at(g, k)->x_safe;
+            if (Sk <= look) {
+                xa = minr(xa, Xk);
+            } else if (Sk - ds < look) {
+                ffwd_real Xp = slot_at(g, k - 1u)->x_safe;
+                xa = minr(xa, Xp + (look - (Sk - ds)) / ds * (Xk - Xp));
+            }
+        }
+    }
+    kt = minr(cmd, sqrt0(minr(xa, xss)));
+    if (kt < cmd)
+        flags |= FFWD_GOV_CAPPED;
+    /* (b), (d): jerk-bounded approach of the target */
+    e = kt - kap;
+    /* largest |u| that still lets u ramp back to 0 at rate V without passing the target */
+    ud = minr(U, V * (sqrt0(dt * dt + FR(2) * absr(e) / V) - dt));
+    ud = e >= FR(0) ? ud : -ud;
+    vlo = -V;
+    vhi = V;
+    for (j = 0; j < n; j++) {
+        const ffwd_joint *J = &m->joint[j];
+        if (J->has_limits & FFWD_LIM_JERK) {
+            ffwd_real jm = keep * J->j_max;
+            ffwd_real J0 = d3[j] * x * kap + FR(3) * d2[j] * kap * g->u;
+            ffwd_real al = d1[j];
+            if (absr(al) > ALPHA_TOL) {
+                ffwd_real va = (-jm - J0) / al, vb = (jm - J0) / al;
+                vlo = maxr(vlo, minr(va, vb));
+                vhi = minr(vhi, maxr(va, vb));
+            } else if (absr(J0) > jm) {
+                jerk_bad = 1;
+            }
+        }
+    }
+    if (vlo > vhi) {
+        jerk_bad = 1;
+        vlo = -V;
+        vhi = V;
+    }
+    v = minr(maxr((ud - g->u) / dt, vlo), vhi);
+    utr = g->u + v * dt;
+    hi = minr(hi, cap);
+    if (lo > hi) {
+        unew = hi;
+        flags |= FFWD_GOV_CONFLICT;
+    } else {
+        unew = minr(maxr(utr, lo), hi);
+    }
+    vact = (unew - g->u) / dt;
+    if (jerk_bad || vact < vlo - FR(1e-9) * (FR(1) + absr(vlo))
+        || vact > vhi + FR(1e-9) * (FR(1) + absr(vhi)))
+        flags |= FFWD_GOV_JERK;
+    /* the command at this cycle */
+    for (j = 0; j < n; j++) {
+        out->qdd[j] = d2[j] * x + d1[j] * unew;
+        out->tau[j] = tau0[j] + (ta[j] - gq[j]) * unew;
+    }
+    out->s = (ffwd_real)g->base * ds + g->sigma;
+    out->override = kap;
+    out->rate = unew;
+    out->rate_rate = vact;
+    out->safe_override = sqrt0(s0->x_safe + th * (s1->x_safe - s0->x_safe));
+    if (kap == FR(0))
+        flags |= FFWD_GOV_AT_REST;
+    out->flags = flags;
+    /* advance by one cycle at constant u */
+    if (unew < FR(0) && kap + unew * dt <= FR(0)) {
+        sig = g->sigma + x / (FR(-2) * unew);
+        kn = FR(0);
+        unew = FR(0);
+    } else {
+        sig = g->sigma + kap * dt + FR(0.5) * dt * dt * unew;
+        kn = kap + unew * dt;
+    }
+    send = (ffwd_real)(g->count - 1u) * ds;
+    if (sig > send || send - sig <= FR(1e-9) * ds)
+        sig = send;
+    for (k = 0; k <= g->pieces; k++) {
+        if (g->count > 1u && sig >= ds) {
+            sig -= ds;
+            g->head = (g->head + 1u) % g->cfg.horizon;
+            g->count--;
+            g->base++;
+        }
+    }
+    g->sigma = sig;
+    g->kappa = kn;
+    g->u = unew;
+    return FFWD_OK;
+}

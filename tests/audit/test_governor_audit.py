@@ -1,0 +1,79 @@
+"""Randomized audit of the C governor: random robots (1-6 joints), paths and override
+commands (steps between 0 % and the maximum at random times); every run must reach
+the end at rest with zero torque, velocity and acceleration violations, recomputed
+from its commanded q, qd, qdd by the inverse dynamics (friction included), and with
+the robot able to stop inside the window (checked offline at a few cycles per run).
+
+    FFWD_AUDIT_RUNS=10000 python -m pytest tests/audit/test_governor_audit.py -s
+
+prints a summary line (runs, cycles, violations, flagged cycles). Default: 20 runs.
+"""
+import os
+import sys
+
+import numpy as np
+
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
+
+from ffwd.scaling import Governor, Path  # noqa: E402
+from ffwd.scaling.check import can_stop, violations  # noqa: E402
+from ffwd.scaling.governor import _c_available  # noqa: E402
+from test_governor import random_arm, require_build, steps, with_feasible_limits  # noqa: E402
+
+RUNS = int(os.environ.get("FFWD_AUDIT_RUNS", "20"))
+SEED = int(os.environ.get("FFWD_AUDIT_SEED", "20261202"))
+
+
+def one_run(seed):
+    rng = np.random.default_rng(seed)
+    dof = int(rng.integers(1, 7))
+    robot, rng = random_arm(int(rng.integers(0, 2 ** 31 - 1)), dof)
+    n_way = int(rng.integers(2, 5))
+    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.8, n_way - 1)]))
+    path = Path.from_waypoints(times, rng.uniform(-1.2, 1.2, (n_way, dof)),
+                               kind=str(rng.choice(["cubic", "quintic"])))
+    robot = with_feasible_limits(robot, path, rng, jerk=bool(rng.random() < 0.5))
+    override_max = float(rng.choice([1.0, 1.5, 2.0]))
+    n_steps = int(rng.integers(1, 6))
+    t_steps = np.concatenate([[0.0], np.sort(rng.uniform(0, 2 * path.duration, n_steps - 1))])
+    k_steps = rng.choice([0.0, 0.05, 0.3, 0.7, 1.0, override_max], n_steps)
+    k_steps[-1] = max(k_steps[-1], 0.3)
+    dt = float(rng.choice([0.001, 0.002, 0.004]))
+    gov = Governor(robot, path, horizon=int(rng.choice([4, 16, 64, 128])), dt=dt,
+                   ds=dt * float(rng.choice([1.0, 2.0])), override_max=override_max,
+                   rate_max=float(rng.uniform(2, 50)), rate_rate_max=float(rng.uniform(50, 5000)),
+                   backend="c")
+    run = gov.run(steps(t_steps, k_steps))
+    v = violations(robot, run.q, run.qd, run.qdd)
+    bad = v["torque"] + v["velocity"] + v["acceleration"] + (0 if run.done else 1)
+    stop_fail = 0
+    for i in rng.choice(len(run.t), size=min(2, len(run.t)), replace=False):
+        ok, _ = can_stop(robot, path, run.s[i], run.override[i], run.window_end[i],
+                         grid_step=gov.ds / 2)
+        stop_fail += 0 if ok else 1
+    return bad, stop_fail, len(run.t), int(np.count_nonzero(run.flags & 8)), v
+
+
+def test_governor_audit():
+    if not _c_available():
+        require_build("ffwd._governor is not importable (run `make install`)")
+    from tqdm import tqdm
+    total = dict(runs=0, cycles=0, violations=0, stop_failures=0, jerk_flagged=0)
+    worst = dict(torque=0.0, velocity=0.0, acceleration=0.0)
+    failures = []
+    for r in tqdm(range(RUNS), desc="governor audit", file=sys.stderr, disable=RUNS < 50):
+        bad, stop_fail, cycles, jerk, v = one_run(SEED + r)
+        total["runs"] += 1
+        total["cycles"] += cycles
+        total["violations"] += bad
+        total["stop_failures"] += stop_fail
+        total["jerk_flagged"] += jerk
+        for k in worst:
+            worst[k] = max(worst[k], v[f"{k}_worst"])
+        if bad or stop_fail:
+            failures.append(SEED + r)
+        if RUNS >= 1000 and (r + 1) % 500 == 0:
+            print(f"governor audit after {r + 1} runs: {total}, worst {worst}, "
+                  f"failing seeds {failures[:10]}", file=sys.stderr, flush=True)
+    print(f"\ngovernor audit: {total}, worst limit ratios {worst}, failing seeds {failures[:10]}")
+    assert total["violations"] == 0 and total["stop_failures"] == 0, failures[:10]

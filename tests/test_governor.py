@@ -1,0 +1,212 @@
+"""The online governor: limits at every cycle, stop-within-window, override steps,
+bad input. Property tests run the C governor (ffwd._governor); a few small cases
+run the twin too."""
+import dataclasses
+import os
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from ffwd import ModelError
+from ffwd.model import Drive, Joint, Limits, Link, Robot
+from ffwd.scaling import Governor, InfeasiblePath, Path, time_optimal
+from ffwd.scaling.check import can_stop, violations
+from ffwd.scaling.governor import MAX_HORIZON, _c_available
+
+Y = np.array([0.0, 1.0, 0.0])
+
+
+def require_build(reason):
+    """Skip without a build; fail under `make test` (FFWD_REQUIRE_BUILD=1)."""
+    if os.environ.get("FFWD_REQUIRE_BUILD") == "1":
+        pytest.fail(f"the package is not built: {reason}")
+    pytest.skip(reason)
+
+
+def arm(torque=(60.0, 20.0), velocity=(2.0, 2.5), acceleration=(8.0, 12.0), jerk=(None, None)):
+    def link(m, l):
+        return Link(m, [l / 2, 0.0, 0.0], np.diag([0.01, m * l * l / 12, m * l * l / 12]))
+    drive = Drive(gear_ratio=50.0, rotor_inertia=1e-5, viscous=0.5, coulomb=1.0, coulomb_band=0.02)
+    js = [Joint(f"j{i + 1}", "revolute", i - 1, np.eye(3), np.array([x0, 0.0, 0.0]), Y,
+                link(m, l), drive, Limits(None, velocity[i], acceleration[i], jerk[i], torque[i]))
+          for i, (m, l, x0) in enumerate(((3.0, 0.5, 0.0), (2.0, 0.4, 0.5)))]
+    return Robot("arm", np.array([0.0, 0.0, -9.81]), tuple(js))
+
+
+PATH = Path.from_waypoints([0.0, 0.5, 1.0], [[0.0, 0.3], [0.5, -0.2], [0.9, 0.4]])
+
+
+@pytest.fixture(scope="module")
+def c_backend():
+    if not _c_available():
+        require_build("ffwd._governor is not importable (run `make install`)")
+    return "c"
+
+
+def steps(times, values):
+    """Piecewise-constant override command."""
+    times, values = np.asarray(times, float), np.asarray(values, float)
+    return lambda t: float(values[np.searchsorted(times, t, side="right") - 1])
+
+
+def check_run(robot, path, run, gov, dense_stop_checks=6):
+    assert run.done, "the end of the path was not reached at rest"
+    v = violations(robot, run.q, run.qd, run.qdd)
+    assert v["torque"] == 0 and v["velocity"] == 0 and v["acceleration"] == 0, v
+    assert run.override.max() <= gov.override_max + 1e-12 and run.override.min() >= 0.0
+    assert np.all(np.abs(run.rate) <= gov.rate_max * (1 + 1e-9))
+    assert run.s[-1] == pytest.approx(path.duration, abs=1e-9)
+    assert np.all(np.diff(run.s) >= -1e-15)
+    # stop within the window, checked independently by offline reachability
+    idx = np.linspace(0, len(run.t) - 1, dense_stop_checks).astype(int)
+    for i in idx:
+        ok, k_safe = can_stop(robot, path, run.s[i], run.override[i], run.window_end[i],
+                              grid_step=gov.ds / 2)
+        assert ok, (i, run.s[i], run.override[i], k_safe)
+    return v
+
+
+def test_twin_run_keeps_limits_and_reaches_the_end():
+    robot = arm()
+    gov = Governor(robot, PATH, horizon=24, dt=0.01, ds=0.01, backend="twin")
+    run = gov.run(steps([0, 0.2, 0.4], [1.0, 0.0, 1.0]))
+    check_run(robot, PATH, run, gov)
+    assert np.any(run.flags & 1)        # it stopped in the 0 % phase
+
+
+def test_override_step_to_zero_and_back(c_backend):
+    robot = arm()
+    gov = Governor(robot, PATH, horizon=64, dt=0.002, ds=0.002, backend=c_backend)
+    cmd = steps([0, 0.15, 0.5, 0.52], [1.0, 0.0, 1.0, 0.3])
+    run = gov.run(cmd)
+    check_run(robot, PATH, run, gov)
+    # (d) a feasible command is reached, within the bounds of (b)
+    late = run.t > 1.0
+    assert np.any(np.abs(run.override[late] - 0.3) < 1e-9)
+    # (b) outside flagged cycles the rate of rate stays bounded
+    unflagged = (run.flags & 8) == 0
+    assert np.all(np.abs(run.rate_rate[unflagged]) <= gov.rate_rate_max * (1 + 1e-9))
+
+
+def test_joint_jerk_limits_hold_where_not_flagged(c_backend):
+    robot = arm(jerk=(200.0, 300.0))
+    gov = Governor(robot, PATH, horizon=64, dt=0.002, ds=0.002, backend=c_backend)
+    run = gov.run(steps([0, 0.3], [1.0, 0.5]))
+    check_run(robot, PATH, run, gov)
+    jerk = np.diff(run.qdd, axis=0) / gov.dt
+    ok = (run.flags[1:] & 8) == 0
+    ratio = np.abs(jerk[ok]) / np.array([200.0, 300.0])
+    # the jerk is bounded by the continuous law at the cycle start; the difference
+    # quotient over one cycle adds a little (tolerance 5 %)
+    assert ratio.max() <= 1.05, ratio.max()
+
+
+def test_full_command_long_window_is_near_offline_optimum(c_backend):
+    # with the command at its maximum and a long window, within 5 % of the offline plan
+    robot = arm()
+    plan = time_optimal(robot, PATH, grid=1000)
+    gov = Governor(robot, PATH, horizon=256, dt=0.001, ds=0.002, override_max=4.0,
+                   rate_max=200.0, rate_rate_max=1e6, margin=0.01, backend=c_backend)
+    run = gov.run(4.0)
+    check_run(robot, PATH, run, gov)
+    ratio = run.duration / plan.duration
+    assert 0.98 < ratio <= 1.05, ratio
+
+
+def random_arm(draw_values, dof):
+    """A serial arm of dof revolute joints with invented random numbers."""
+    rng = np.random.default_rng(draw_values)
+    js = []
+    for i in range(dof):
+        m, l = rng.uniform(0.5, 4.0), rng.uniform(0.2, 0.6)
+        axis = np.array([0.0, 0.0, 1.0]) if (i == 0 and rng.random() < 0.5) else Y
+        link = Link(m, [l / 2, 0.0, 0.0], np.diag([0.1, 1.0, 1.0]) * (m * l * l / 12))
+        drive = Drive(gear_ratio=rng.uniform(1, 100), rotor_inertia=rng.uniform(0, 1e-5),
+                      viscous=rng.uniform(0, 2), coulomb=rng.uniform(0, 2),
+                      coulomb_band=rng.uniform(0.005, 0.05))
+        js.append(Joint(f"j{i + 1}", "revolute", i - 1, np.eye(3),
+                        np.array([0.4 if i else 0.0, 0.0, 0.0]), axis, link, drive,
+                        Limits(None, 1.0, 1.0, None, 1.0)))
+    return Robot("random_arm", np.array([0.0, 0.0, -9.81]), tuple(js)), rng
+
+
+def with_feasible_limits(robot, path, rng, jerk=False):
+    """Torque limits a random factor above what holding still along the path needs."""
+    from ffwd.twin import gravity_torque
+    s = path.grid(20)
+    g = np.array([np.abs(gravity_torque(robot, path.q(si))) for si in s]).max(axis=0)
+    js = []
+    for i, j in enumerate(robot.joints):
+        tau = (g[i] + j.drive.coulomb) * rng.uniform(1.3, 3.0) + rng.uniform(0.5, 5.0)
+        js.append(dataclasses.replace(j, limits=Limits(
+            None, rng.uniform(0.5, 3.0), rng.uniform(2.0, 30.0),
+            rng.uniform(50.0, 500.0) if jerk else None, tau)))
+    return Robot(robot.name, robot.gravity, tuple(js))
+
+
+@st.composite
+def scenarios(draw):
+    dof = draw(st.integers(1, 3))
+    seed = draw(st.integers(0, 2 ** 31 - 1))
+    robot, rng = random_arm(seed, dof)
+    n_way = draw(st.integers(2, 4))
+    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.6, n_way - 1)]))
+    q = rng.uniform(-1.0, 1.0, (n_way, dof))
+    path = Path.from_waypoints(times, q)
+    robot = with_feasible_limits(robot, path, rng, jerk=draw(st.booleans()))
+    n_steps = draw(st.integers(1, 4))
+    t_steps = np.concatenate([[0.0], np.sort(rng.uniform(0.0, 2.0, n_steps - 1))])
+    k_steps = [draw(st.sampled_from([0.0, 0.1, 0.5, 1.0, 1.5])) for _ in range(n_steps)]
+    if all(k == 0.0 for k in k_steps):
+        k_steps[-1] = 1.0
+    k_steps[-1] = max(k_steps[-1], 0.3)        # the run ends
+    horizon = draw(st.sampled_from([8, 32, 64]))
+    return robot, path, t_steps, k_steps, horizon
+
+
+@settings(deadline=None)
+@given(scenarios())
+def test_property_no_violation_and_can_always_stop(c_backend, scenario):
+    robot, path, t_steps, k_steps, horizon = scenario
+    gov = Governor(robot, path, horizon=horizon, dt=0.002, ds=0.004, override_max=1.5,
+                   backend=c_backend)
+    run = gov.run(steps(t_steps, k_steps))
+    check_run(robot, path, run, gov, dense_stop_checks=4)
+
+
+# ---- bad input
+def test_bad_configuration():
+    robot = arm()
+    with pytest.raises(ValueError, match="horizon"):
+        Governor(robot, PATH, horizon=0)
+    with pytest.raises(ValueError, match="horizon"):
+        Governor(robot, PATH, horizon=MAX_HORIZON + 1)
+    with pytest.raises(ValueError, match="dt"):
+        Governor(robot, PATH, dt=0.0)
+    with pytest.raises(ValueError, match="dt"):
+        Governor(robot, PATH, dt=-0.001)
+    with pytest.raises(ValueError, match="margin"):
+        Governor(robot, PATH, margin=0.7)
+    with pytest.raises(ValueError, match="override"):
+        Governor(robot, PATH, backend="twin").run(np.array([1.0, np.nan]))
+
+
+def test_missing_limits_are_model_errors():
+    robot = arm()
+    j = dataclasses.replace(robot.joints[0], limits=Limits(None, None, 8.0, None, 60.0))
+    bad = Robot("arm", robot.gravity, (j, robot.joints[1]))
+    with pytest.raises(ModelError, match="j1.*limits.velocity"):
+        Governor(bad, PATH)
+
+
+@pytest.mark.parametrize("backend", ["twin", "c"])
+def test_infeasible_path_is_located(backend):
+    if backend == "c" and not _c_available():
+        require_build("ffwd._governor is not importable")
+    robot = arm(torque=(15.0, 20.0))        # cannot hold the arm out (needs ~ 21 N m)
+    gov = Governor(robot, PATH, horizon=8, dt=0.01, ds=0.01, backend=backend)
+    with pytest.raises(InfeasiblePath) as info:
+        gov.run(1.0)
+    assert info.value.joint == "j1" and info.value.limit == "torque" and info.value.index == 0

@@ -1,0 +1,54 @@
+"""`ffwd scale` and `ffwd govern` end to end: files written, exit codes, located errors."""
+import json
+
+import numpy as np
+import pytest
+
+import ffwd
+from ffwd.cli import main
+
+MODEL = "examples/robots/planar3_vertical.toml"
+
+
+@pytest.fixture()
+def move(tmp_path):
+    robot = ffwd.load(MODEL)
+    f = tmp_path / "move.csv"
+    t = np.array([0.0, 0.6, 1.2])
+    q = np.array([[0.0] * robot.dof, [0.3] * robot.dof, [0.6] * robot.dof])
+    q[:, 0] *= -1
+    lines = ["t," + ",".join(f"q_{n}" for n in robot.joint_names)]
+    lines += [f"{ti}," + ",".join(str(v) for v in qi) for ti, qi in zip(t, q)]
+    f.write_text("\n".join(lines) + "\n")
+    return f
+
+
+def test_scale_writes_plan_and_report(tmp_path, move):
+    out = tmp_path / "scale"
+    assert main(["scale", MODEL, str(move), "--out", str(out), "--grid", "100",
+                 "--backend", "twin"]) == 0
+    for name in ("plan.csv", "active.md", "active.json", "torques.png", "phase.png"):
+        assert (out / name).stat().st_size > 0, name
+    rep = json.loads((out / "active.json").read_text())
+    assert rep["duration_s"] > 0 and rep["active"]
+    assert "| joint | limit |" in (out / "active.md").read_text()
+
+
+def test_govern_writes_command(tmp_path, move):
+    out = tmp_path / "gov"
+    code = main(["govern", MODEL, str(move), "--step", "0:1,0.3:0,0.5:1", "--out", str(out),
+                 "--dt", "0.01", "--horizon", "16", "--backend", "twin"])
+    assert code == 0
+    for name in ("command.csv", "summary.md", "summary.json", "override.png", "torques.png"):
+        assert (out / name).stat().st_size > 0, name
+    rep = json.loads((out / "summary.json").read_text())
+    assert rep["done"] and rep["violations"]["torque"] == 0
+
+
+def test_bad_input_is_one_line(tmp_path, move, capsys):
+    assert main(["govern", MODEL, str(move), "--step", "0:1,oops", "--out", str(tmp_path)]) == 2
+    assert "--step" in capsys.readouterr().err
+    assert main(["govern", MODEL, str(move), "--step", "0:1", "--horizon", "0",
+                 "--out", str(tmp_path)]) == 2
+    assert "horizon" in capsys.readouterr().err
+    assert main(["scale", MODEL, str(tmp_path / "missing.csv"), "--out", str(tmp_path)]) == 2
