@@ -300,7 +300,7 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     id_pass(m, w, tp, qd, qdd, m->gravity, tau);
     for (i = 0; i < m->dof; i++)
         tau[i] += m->joint[i].armature * qdd[i] + friction_torque(&m->joint[i], qd[i]);
-    return FFWD_OK;
+    return ffwd_out_ok_(tau, m->dof);
 }
 
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
@@ -364,7 +364,7 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     }
     ffwd_trig_(m, w, q);
     gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau);
-    return FFWD_OK;
+    return ffwd_out_ok_(tau, m->dof);
 }
 
 ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -397,7 +397,14 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);
     }
-    return FFWD_OK;
+    if (ffwd_finite_(inertial, m->dof) && ffwd_finite_(velocity, m->dof)
+        && ffwd_finite_(gravity, m->dof) && ffwd_finite_(friction, m->dof))
+        return FFWD_OK;
+    ffwd_zero_(inertial, m->dof); /* overflow: all four parts zero, like any error */
+    ffwd_zero_(velocity, m->dof);
+    ffwd_zero_(gravity, m->dof);
+    ffwd_zero_(friction, m->dof);
+    return FFWD_E_NONFINITE;
 }
 
 ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *M)
@@ -454,7 +461,7 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
                 P[k] += X[k];
         }
     }
-    return FFWD_OK;
+    return ffwd_out_ok_(M, m->dof * m->dof);
 }
 
 /* ---- articulated body algorithm -------------------------------------------------- */

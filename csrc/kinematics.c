@@ -54,7 +54,7 @@ ffwd_status ffwd_tool_pose(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     }
     T[12] = T[13] = T[14] = FR(0);
     T[15] = FR(1);
-    return FFWD_OK;
+    return ffwd_out_ok_(T, 16u);
 }
 
 ffwd_status ffwd_tool_jacobian(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *J)
@@ -92,5 +92,5 @@ ffwd_status ffwd_tool_jacobian(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         }
         j = Jt->parent;
     }
-    return FFWD_OK;
+    return ffwd_out_ok_(J, 6u * m->dof);
 }

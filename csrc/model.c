@@ -51,6 +51,14 @@ int ffwd_finite_(const ffwd_real *x, uint32_t n)
     return bad == 0u;
 }
 
+ffwd_status ffwd_out_ok_(ffwd_real *x, uint32_t n)
+{
+    if (ffwd_finite_(x, n))
+        return FFWD_OK;
+    ffwd_zero_(x, n); /* an overflow inside the computation: never hand out Inf or NaN */
+    return FFWD_E_NONFINITE;
+}
+
 void ffwd_zero_(ffwd_real *x, uint32_t n)
 {
     uint32_t i;

@@ -117,5 +117,5 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
         Y[k * cols + 13u * k + 11u] = qd[k];
         Y[k * cols + 13u * k + 12u] = clamp1(qd[k] / m->joint[k].coulomb_band);
     }
-    return FFWD_OK;
+    return ffwd_out_ok_(Y, m->dof * cols);
 }

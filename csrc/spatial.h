@@ -99,6 +99,9 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
                    const ffwd_real *g);
 /* x[0..n) = 0; x may be NULL. */
 void ffwd_zero_(ffwd_real *x, uint32_t n);
+/* FFWD_OK when x[0..n) is finite; otherwise zeroes it and returns FFWD_E_NONFINITE
+ * (the exit check of every per-cycle function: overflow never reaches the caller). */
+ffwd_status ffwd_out_ok_(ffwd_real *x, uint32_t n);
 
 /* the stamp ffwd_work_init leaves in a work bound to m */
 static inline uint32_t ffwd_stamp_of_(const ffwd_model *m)

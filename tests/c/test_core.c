@@ -176,6 +176,22 @@ static void test_args(void)
         for (i = 0; i < N6; i++) CHECK(tau[i] == tau[i] && tau[i] - tau[i] == 0, "id large q finite");
         q[1] = keep;
     }
+    /* finite inputs whose torques overflow: E_NONFINITE and zero outputs, never Inf */
+    {
+#ifdef FFWD_SINGLE
+        const ffwd_real huge = (ffwd_real)-1e30; /* products of two of them overflow */
+#else
+        const ffwd_real huge = (ffwd_real)-1e200;
+#endif
+        for (i = 0; i < N6; i++) qd[i] = huge;
+        ffwd_status so;
+        for (i = 0; i < N6; i++) tau[i] = 7;
+        so = ffwd_inverse_dynamics(&m, &w, q, qd, qdd, tau);
+        CHECK(so == FFWD_E_NONFINITE && all_zero(tau, N6), "id overflow: status %d tau %g", (int)so, (double)tau[0]);
+        CHECK(ffwd_torque_parts(&m, &w, q, qd, qdd, p1, p2, p3, p4) == FFWD_E_NONFINITE && all_zero(p1, N6)
+              && all_zero(p2, N6) && all_zero(p3, N6) && all_zero(p4, N6), "parts overflow");
+        for (i = 0; i < N6; i++) qd[i] = (ffwd_real)0.2;
+    }
     /* unbound work */
     memset(&w2, 0, sizeof w2);
     CHECK(ffwd_inverse_dynamics(&m, &w2, q, qd, qdd, tau) == FFWD_E_MODEL && all_zero(tau, N6), "unbound work");
