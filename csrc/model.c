@@ -73,6 +73,23 @@ static ffwd_real absr(ffwd_real x)
     return x < FR(0) ? -x : x;
 }
 
+/* A model number: finite and of a magnitude no physical robot needs (|x| <= 1e50, 1e18
+ * in float builds; the Python loader uses the same 1e50), so that products inside the
+ * algorithms cannot overflow for any state the entry checks let through. */
+#ifdef FFWD_SINGLE
+#define MODEL_MAX FR(1e18)
+#else
+#define MODEL_MAX FR(1e50)
+#endif
+static int num_ok(const ffwd_real *x, uint32_t n)
+{
+    uint32_t i;
+    int ok = ffwd_finite_(x, n);
+    for (i = 0; ok && i < n; i++)
+        ok = absr(x[i]) <= MODEL_MAX;
+    return ok;
+}
+
 /* R row-major with R R^T = 1 and det R = +1, within ROT_TOL */
 static int rotation_ok(const ffwd_real *R)
 {
@@ -157,10 +174,10 @@ static int joint_ok(const ffwd_joint *J, int32_t index)
         return 0;
     if (J->parent < -1 || J->parent >= index)
         return 0;
-    if (!ffwd_finite_(J->rot, 9) || !ffwd_finite_(J->pos, 3) || !ffwd_finite_(J->axis, 3)
-        || !ffwd_finite_(J->inertia, 10) || !ffwd_finite_(&J->armature, 1)
-        || !ffwd_finite_(&J->viscous, 1) || !ffwd_finite_(&J->coulomb, 1)
-        || !ffwd_finite_(&J->coulomb_band, 1))
+    if (!num_ok(J->rot, 9) || !num_ok(J->pos, 3) || !num_ok(J->axis, 3)
+        || !num_ok(J->inertia, 10) || !num_ok(&J->armature, 1)
+        || !num_ok(&J->viscous, 1) || !num_ok(&J->coulomb, 1)
+        || !num_ok(&J->coulomb_band, 1))
         return 0;
     if (!rotation_ok(J->rot))
         return 0;
@@ -175,16 +192,16 @@ static int joint_ok(const ffwd_joint *J, int32_t index)
     if (J->has_limits & ~0x1fu)
         return 0;
     if (J->has_limits & FFWD_LIM_POSITION) {
-        if (!ffwd_finite_(&J->q_min, 1) || !ffwd_finite_(&J->q_max, 1) || !(J->q_min < J->q_max))
+        if (!num_ok(&J->q_min, 1) || !num_ok(&J->q_max, 1) || !(J->q_min < J->q_max))
             return 0;
     }
-    if ((J->has_limits & FFWD_LIM_VELOCITY) && !(ffwd_finite_(&J->v_max, 1) && J->v_max > FR(0)))
+    if ((J->has_limits & FFWD_LIM_VELOCITY) && !(num_ok(&J->v_max, 1) && J->v_max > FR(0)))
         return 0;
-    if ((J->has_limits & FFWD_LIM_ACCELERATION) && !(ffwd_finite_(&J->a_max, 1) && J->a_max > FR(0)))
+    if ((J->has_limits & FFWD_LIM_ACCELERATION) && !(num_ok(&J->a_max, 1) && J->a_max > FR(0)))
         return 0;
-    if ((J->has_limits & FFWD_LIM_JERK) && !(ffwd_finite_(&J->j_max, 1) && J->j_max > FR(0)))
+    if ((J->has_limits & FFWD_LIM_JERK) && !(num_ok(&J->j_max, 1) && J->j_max > FR(0)))
         return 0;
-    if ((J->has_limits & FFWD_LIM_TORQUE) && !(ffwd_finite_(&J->tau_max, 1) && J->tau_max > FR(0)))
+    if ((J->has_limits & FFWD_LIM_TORQUE) && !(num_ok(&J->tau_max, 1) && J->tau_max > FR(0)))
         return 0;
     return 1;
 }
@@ -192,7 +209,7 @@ static int joint_ok(const ffwd_joint *J, int32_t index)
 /* payload 10 parameters: all zero, or a physically valid body */
 int ffwd_payload_params_ok_(const ffwd_real *th)
 {
-    if (!ffwd_finite_(th, 10))
+    if (!num_ok(th, 10))
         return 0;
     return all_zero(th, 10) || body_ok(th, 1);
 }
@@ -204,14 +221,14 @@ ffwd_status ffwd_model_check(const ffwd_model *m)
         return FFWD_E_ARG;
     if (m->dof < 1u || m->dof > (uint32_t)FFWD_MAX_DOF)
         return FFWD_E_MODEL;
-    if (!ffwd_finite_(m->gravity, 3))
+    if (!num_ok(m->gravity, 3))
         return FFWD_E_MODEL;
     for (i = 0; i < (int32_t)m->dof; i++)
         if (!joint_ok(&m->joint[i], i))
             return FFWD_E_MODEL;
     if (m->tool_parent < 0 || m->tool_parent >= (int32_t)m->dof)
         return FFWD_E_MODEL;
-    if (!ffwd_finite_(m->tool_rot, 9) || !ffwd_finite_(m->tool_pos, 3) || !rotation_ok(m->tool_rot))
+    if (!num_ok(m->tool_rot, 9) || !num_ok(m->tool_pos, 3) || !rotation_ok(m->tool_rot))
         return FFWD_E_MODEL;
     if (!ffwd_payload_params_ok_(m->payload))
         return FFWD_E_MODEL;

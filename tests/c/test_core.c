@@ -213,7 +213,7 @@ static void test_model_rules(void)
     base.joint[2].q_min = -1; base.joint[2].q_max = 1; base.joint[2].v_max = 2;
     base.joint[2].a_max = 3; base.joint[2].j_max = 4; base.joint[2].tau_max = 5;
     CHECK(ffwd_model_check(&base) == FFWD_OK, "base model rejected");
-    for (rule = 0; rule < 33; rule++) {
+    for (rule = 0; rule < 35; rule++) {
         ffwd_joint *J;
         m = base;
         J = &m.joint[2];
@@ -250,6 +250,8 @@ static void test_model_rules(void)
         case 29: m.payload[4] = 1; break; /* inertia without mass */
         case 30: J->inertia[5] = (ffwd_real)NAN; break;
         case 31: J->has_limits |= 64u; break;
+        case 32: m.gravity[2] = (ffwd_real)-5e30 * (ffwd_real)5e30 * (ffwd_real)1e-6; break; /* finite, absurd: 2.5e55 (inf in float) */
+        case 33: J->tau_max = (ffwd_real)1e30 * (ffwd_real)1e30; break; /* 1e60 (inf in float) */
         default: J->viscous = (ffwd_real)INFINITY; break;
         }
         CHECK(ffwd_model_check(&m) == FFWD_E_MODEL, "rule %d not rejected", rule);
