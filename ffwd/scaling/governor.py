@@ -128,7 +128,11 @@ class Governor:
     def _command(self, override):
         if callable(override):
             return lambda i, t: float(override(t))
-        arr = np.atleast_1d(np.asarray(override, dtype=float))
+        try:
+            arr = np.atleast_1d(np.asarray(override, dtype=float))
+        except (TypeError, ValueError):
+            raise ValueError(f"override: expected a number, a 1-D array or a function of "
+                             f"time, got {override!r:.60}") from None
         if arr.ndim != 1 or len(arr) == 0:
             raise ValueError("override: expected a number, a 1-D array or a function of time")
         if not np.all(np.isfinite(arr)):

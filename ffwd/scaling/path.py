@@ -16,9 +16,16 @@ from scipy.interpolate import CubicSpline, make_interp_spline
 __all__ = ["Path"]
 
 
+def _real_array(name, value):
+    try:
+        return np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name}: expected real numbers, got {value!r:.60}") from None
+
+
 def _waypoint_arrays(times, q):
-    t = np.asarray(times, dtype=float)
-    q = np.asarray(q, dtype=float)
+    t = _real_array("times", times)
+    q = _real_array("q", q)
     if t.ndim != 1:
         raise ValueError(f"times: expected a 1-D array, got shape {t.shape}")
     if q.ndim == 1:
@@ -111,6 +118,8 @@ class Path:
 
     def grid(self, n=1000):
         """n + 1 equally spaced values of s from 0 to duration (n segments)."""
+        if isinstance(n, bool) or not isinstance(n, (int, np.integer)):
+            raise ValueError(f"grid: expected a whole number of segments, got {n!r:.60}")
         n = int(n)
         if n < 2:
             raise ValueError(f"grid: needs at least 2 segments, got {n}")

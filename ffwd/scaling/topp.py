@@ -229,6 +229,10 @@ def time_optimal(robot, path, grid=1000, start_speed=0.0, end_speed=0.0, margin=
     margin: fraction of every limit held back. rate_max: optional bound on |s_ddot|.
     jerk: None (apply the jerk pass when every joint has a jerk limit), True or False.
     Raises InfeasiblePath (a ValueError) naming grid index, s, joint and limit."""
+    if not (isinstance(margin, (int, float, np.floating, np.integer)) and 0.0 <= margin < 1.0):
+        raise ValueError(f"margin: expected a fraction of the limits in [0, 1), got {margin!r}")
+    if rate_max is not None and not (np.isfinite(rate_max) and rate_max > 0):
+        raise ValueError(f"rate_max: expected a bound > 0 on |s_ddot| (or None), got {rate_max!r}")
     s = path.grid(grid)
     ds = float(s[1] - s[0])
     q, dq, ddq = path.q(s), path.dq(s), path.ddq(s)
