@@ -289,6 +289,9 @@ def other_scripts(out, quick):
             out[key] = scaling[key]
     loop_args = ["--seconds", "1"] if quick else []
     out["loop"] = _script_json(os.path.join(HERE, "bench_loop.py"), loop_args, 40 if quick else 300)
+    for key in ("loop_deadline_misses_1khz", "loop_wakeup_p99_us"):
+        if key in out["loop"]:
+            out[key] = out["loop"][key]
 
 
 def targets(out):
