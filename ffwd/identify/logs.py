@@ -10,12 +10,13 @@ A log is a CSV file with a header row and one row per sample:
                  the model (an ideal gearbox; its losses show up as friction).
 Errors are ValueError with one located line: file, column, line number, time.
 """
-import csv
 import os
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.signal import butter, filtfilt
+
+from ..trajio import read_csv_rows
 
 MIN_SAMPLES = 50          # raw rows a log needs before anything else is tried
 JITTER_TOL = 0.01         # relative step jitter tolerated without resampling
@@ -54,11 +55,6 @@ def _kt_for(torque_constants, joint, path, column):
     return kt
 
 
-def _parse(path):
-    from ..trajio import read_csv_rows
-    return read_csv_rows(path)
-
-
 def read_log(path, robot, torque_constants=None, max_gap=None):
     """Read and check a log for `robot` (see the module doc).
 
@@ -66,7 +62,7 @@ def read_log(path, robot, torque_constants=None, max_gap=None):
     joints or {joint: k_t}). max_gap: the longest time step accepted, s (default 2.5x
     the median step); shorter irregular steps are evened out by linear interpolation."""
     path = os.fspath(path)
-    header, lines = _parse(path)
+    header, lines = read_csv_rows(path)
     names = robot.joint_names
     col = {h: k for k, h in enumerate(header)}
     if "t" not in col:
