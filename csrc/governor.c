@@ -174,9 +174,8 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
 {
     const ffwd_model *m;
     ffwd_gov_slot *sl;
-    ffwd_real a[FFWD_MAX_DOF], grav[FFWD_MAX_DOF], iner[FFWD_MAX_DOF], zero[FFWD_MAX_DOF];
-    ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];
-    ffwd_real uB[FFWD_GOV_COLS], uG[FFWD_GOV_COLS], uD[FFWD_GOV_COLS];
+    ffwd_real *a, *grav, *iner, *zero;
+    ffwd_real *lB, *lG, *lD, *uB, *uG, *uD;
     ffwd_real keep, ds, X, r;
     uint32_t n, j, p, i, cols;
     ffwd_status st;
@@ -186,6 +185,16 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
         return FFWD_E_ARG;
     m = g->model;
     n = m->dof;
+    lB = g->lB;
+    lG = g->lG;
+    lD = g->lD;
+    uB = g->uB;
+    uG = g->uG;
+    uD = g->uD;
+    a = g->ta;          /* the step's scratch, free between steps */
+    grav = g->gq;
+    iner = g->tau0;
+    zero = g->zq;
     if (!ffwd_finite_(q, n) || !ffwd_finite_(dq, n) || !ffwd_finite_(ddq, n) || !ffwd_finite_(dddq, n))
         return FFWD_E_NONFINITE;
     for (j = 0; j < n; j++) {
@@ -459,8 +468,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     const ffwd_model *m;
     ffwd_gov_slot *s0, *s1;
     ffwd_real H[4][6];
-    ffwd_real d1[FFWD_MAX_DOF], d2[FFWD_MAX_DOF], d3[FFWD_MAX_DOF];
-    ffwd_real tau0[FFWD_MAX_DOF], ta[FFWD_MAX_DOF], gq[FFWD_MAX_DOF], zq[FFWD_MAX_DOF];
+    ffwd_real *d1, *d2, *d3, *tau0, *ta, *gq, *zq;
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
     ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss;
     uint32_t n, j, k, flags = 0, jerk_bad = 0;
@@ -483,6 +491,13 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         return FFWD_E_NONFINITE;
     m = g->model;
     n = m->dof;
+    d1 = g->d1;
+    d2 = g->d2;
+    d3 = g->d3;
+    tau0 = g->tau0;
+    ta = g->ta;
+    gq = g->gq;
+    zq = g->zq;
     dt = g->cfg.dt;
     ds = g->cfg.ds;
     U = g->cfg.rate_max;

@@ -91,6 +91,14 @@ typedef struct ffwd_governor {
     int32_t fault_joint;    /* joint (-1: none) and */
     uint32_t fault_limit;   /* FFWD_LIM_* bit of the limit that cannot be met */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
+    /* scratch of ffwd_governor_push (kept here, off the stack): the rows' lower and
+     * upper bounds of u, u >= lB x + lG kappa + lD and u <= uB x + uG kappa + uD */
+    ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];
+    ffwd_real uB[FFWD_GOV_COLS], uG[FFWD_GOV_COLS], uD[FFWD_GOV_COLS];
+    /* scratch of ffwd_governor_step (path derivatives and torques at the current point),
+     * also used by ffwd_governor_push */
+    ffwd_real d1[FFWD_MAX_DOF], d2[FFWD_MAX_DOF], d3[FFWD_MAX_DOF];
+    ffwd_real tau0[FFWD_MAX_DOF], ta[FFWD_MAX_DOF], gq[FFWD_MAX_DOF], zq[FFWD_MAX_DOF];
 } ffwd_governor;
 
 typedef struct ffwd_gov_output {
