@@ -5,7 +5,7 @@ import os
 
 import numpy as np
 
-from ._common import load_model, progress_note
+from ._common import add_model_trajectory, load_model, progress_note
 
 
 def register(sub):
@@ -17,12 +17,10 @@ def register(sub):
                     "--step 't0:k0,t1:k1,...'. Writes command.csv (one row per control cycle), "
                     "override.png, torques.png, summary.md and summary.json. Exit code 1 when "
                     "a limit is exceeded in the command or the end is not reached.")
-    p.add_argument("model", help="robot model (.toml, DH table or .urdf)")
-    p.add_argument("path", help="trajectory CSV: t and q_<joint> columns")
+    add_model_trajectory(p, "ffwd-govern", data="path")
     src = p.add_mutually_exclusive_group(required=True)
     src.add_argument("--override", metavar="PROFILE.csv", help="override profile CSV (t, override)")
     src.add_argument("--step", metavar="T:K,...", help="override steps, e.g. '0:1,0.5:0,0.8:1'")
-    p.add_argument("--out", default="ffwd-govern", help="output folder (default: %(default)s)")
     p.add_argument("--horizon", type=int, default=64, help="window in samples (default: %(default)s)")
     p.add_argument("--dt", type=float, default=0.001, help="control period [s] (default: %(default)s)")
     p.add_argument("--ds", type=float, default=None, help="sample spacing in nominal time [s] (default: dt)")
@@ -44,13 +42,18 @@ def parse_steps(text):
             t, k = (float(v) for v in item.split(":"))
         except ValueError:
             raise ValueError(f"--step: item {i + 1} {item!r} is not 'time:override'") from None
-        if not (np.isfinite(t) and np.isfinite(k) and k >= 0):
-            raise ValueError(f"--step: item {i + 1} {item!r}: need finite time and override >= 0")
-        if times and t <= times[-1]:
-            raise ValueError(f"--step: item {i + 1} {item!r}: times must increase")
-        times.append(t)
-        values.append(k)
+        _append_point(times, values, t, k, f"--step: item {i + 1} {item!r}")
     return np.array(times), np.array(values)
+
+
+def _append_point(times, values, t, k, where):
+    """One (time, override) point of a profile: finite, override >= 0, time increasing."""
+    if not (np.isfinite(t) and np.isfinite(k) and k >= 0):
+        raise ValueError(f"{where}: need finite time and override >= 0")
+    if times and t <= times[-1]:
+        raise ValueError(f"{where}: time {t:g} does not increase")
+    times.append(t)
+    values.append(k)
 
 
 def read_profile(path):
@@ -66,12 +69,7 @@ def read_profile(path):
             t, k = float(r[0]), float(r[1])
         except (ValueError, IndexError):
             raise ValueError(f"{path}: row {i + 2}: expected two numbers, got {r!r}") from None
-        if not (np.isfinite(t) and np.isfinite(k) and k >= 0):
-            raise ValueError(f"{path}: row {i + 2}: need finite t and override >= 0")
-        if times and t <= times[-1]:
-            raise ValueError(f"{path}: row {i + 2}: time {t} does not increase")
-        times.append(t)
-        values.append(k)
+        _append_point(times, values, t, k, f"{path}: row {i + 2}")
     if not times:
         raise ValueError(f"{path}: no rows")
     return np.array(times), np.array(values)

@@ -5,7 +5,7 @@ import os
 
 import numpy as np
 
-from ._common import load_model, progress_note
+from ._common import add_model_trajectory, load_model, progress_note
 
 
 def register(sub):
@@ -17,9 +17,7 @@ def register(sub):
                     "gravity; and the largest acceleration straight down and straight up. Writes "
                     "manip.csv, manip.json, manip.png and summary.md. Exit code 1 when, with "
                     "--normalise, the arm cannot hold some pose within its torque limits.")
-    p.add_argument("model", help="robot model (.toml, DH table or .urdf)")
-    p.add_argument("trajectory", help="trajectory CSV (t, q_<joint>)")
-    p.add_argument("--out", default="ffwd-manip", help="output folder (default: %(default)s)")
+    add_model_trajectory(p, "ffwd-manip", data_help="trajectory CSV (t, q_<joint>)")
     p.add_argument("--normalise", action="store_true",
                    help="scale each joint torque by its torque limit (all limits must be given)")
     p.add_argument("--backend", default=None,

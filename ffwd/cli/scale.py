@@ -3,7 +3,7 @@ import json
 import os
 
 
-from ._common import load_model, progress_note
+from ._common import add_model_trajectory, load_model, progress_note
 
 
 def register(sub):
@@ -15,9 +15,7 @@ def register(sub):
                     "limits, by reachability analysis on a uniform grid. Writes plan.csv, "
                     "active.md and active.json (which joint and limit is active where: the "
                     "proof that nothing faster exists), torques.png and phase.png.")
-    p.add_argument("model", help="robot model (.toml, DH table or .urdf)")
-    p.add_argument("path", help="trajectory CSV: t and q_<joint> columns")
-    p.add_argument("--out", default="ffwd-scale", help="output folder (default: %(default)s)")
+    add_model_trajectory(p, "ffwd-scale", data="path")
     p.add_argument("--grid", type=int, default=1000, help="grid segments (default: %(default)s)")
     p.add_argument("--margin", type=float, default=0.0,
                    help="fraction of every limit held back (default: %(default)s)")

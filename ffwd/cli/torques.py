@@ -4,7 +4,7 @@ import os
 
 import numpy as np
 
-from ._common import load_model, progress_note
+from ._common import add_model_trajectory, load_model, progress_note
 
 
 def register(sub):
@@ -15,9 +15,7 @@ def register(sub):
                                    "Writes torques.csv (total and inertial/velocity/gravity/friction "
                                    "parts), torques.png (torques against limits), limits.json and "
                                    "summary.md. Exit code 1 when a limit is exceeded.")
-    p.add_argument("model", help="robot model (.toml, DH table or .urdf)")
-    p.add_argument("trajectory", help="trajectory CSV")
-    p.add_argument("--out", default="ffwd-torques", help="output folder (default: %(default)s)")
+    add_model_trajectory(p, "ffwd-torques", data_help="trajectory CSV")
     p.add_argument("--backend", default="c", help="c, twin, or a path to libffwd.so (default: c)")
     p.set_defaults(func=run)
 
