@@ -641,7 +641,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     /* (b), (d): jerk-bounded approach of the target */
     e = kt - kap;
     /* largest |u| that still lets u ramp back to 0 at rate V without passing the target */
-    ud = minr(U, V * (sqrt0(dt * dt + FR(2) * absr(e) / V) - dt));
+    ud = minr(U, FR(2) * absr(e) / (sqrt0(dt * dt + FR(2) * absr(e) / V) + dt));
     ud = e >= FR(0) ? ud : -ud;
     vlo = -V;
     vhi = V;

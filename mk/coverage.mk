@@ -22,7 +22,9 @@ coverage-c: coverage-tools
 	  -DCMAKE_C_FLAGS="--coverage -O0 -g" -DCMAKE_EXE_LINKER_FLAGS=--coverage \
 	  -DCMAKE_SHARED_LINKER_FLAGS=--coverage >/dev/null
 	$(VENV)/bin/cmake --build $(COV_DIR)/c -j $(JOBS)
-	cd $(COV_DIR)/c && FFWD_STRESS_READS=200000 $(CURDIR)/$(VENV)/bin/ctest -j $(JOBS) >/dev/null
+	@# a failing C test is reported by `make test`; coverage is still measured here
+	cd $(COV_DIR)/c && FFWD_STRESS_READS=200000 $(CURDIR)/$(VENV)/bin/ctest -j $(JOBS) >/dev/null \
+	  || echo "coverage-c: some C tests failed (run make test); coverage measured anyway"
 	gcc --coverage -O0 -g -std=c11 -DFUZZ_REPLAY_MAIN -Icsrc/include -Icsrc fuzz/fuzz_api.c csrc/*.c \
 	  -lm -o $(COV_DIR)/c/fuzz_replay
 	cd $(COV_DIR)/c && find $(CURDIR)/fuzz/corpus/api $(CURDIR)/$(FUZZ_DIR)/corpus/api -type f 2>/dev/null \

@@ -43,7 +43,7 @@ define fuzz_loaders
 	@for t in $(1); do \
 	  (cd $(FUZZ_DIR) && $(CURDIR)/$(VPY) $(CURDIR)/fuzz/fuzz_loaders.py $$t $(2) \
 	    -print_final_stats=1 corpus/$$t > $$t.log 2>&1); rc=$$?; \
-	  echo "loader $$t: $$(grep -hE '^(stat::number_of_executed_units|fuzz_loaders)' $(FUZZ_DIR)/$$t.log | tr '\n' ' ')"; \
+	  echo "loader $$t: $$(grep -hE '^(stat::number_of_executed_units|stat::average_exec_per_sec|fuzz_loaders)' $(FUZZ_DIR)/$$t.log | tr '\n' ' ')"; \
 	  if [ $$rc -ne 0 ]; then grep -vE '^#[0-9]+ ' $(FUZZ_DIR)/$$t.log | tail -25; exit 1; fi; \
 	done
 endef

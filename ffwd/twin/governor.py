@@ -449,7 +449,7 @@ class GovernorTwin:
         # (b), (d): jerk-bounded approach of the target
         e = kt - kap
         # largest |u| that still lets u ramp back to 0 at rate V without passing the target
-        ud = min(U, V * (sqrt0(dt * dt + 2.0 * abs(e) / V) - dt))
+        ud = min(U, 2.0 * abs(e) / (sqrt0(dt * dt + 2.0 * abs(e) / V) + dt))
         ud = ud if e >= 0.0 else -ud
         vlo, vhi = -V, V
         jerk_bad = False

@@ -8,10 +8,12 @@ OUT=${OUT:-/tmp/ffwd_c}
 CC=${CC:-gcc}
 mkdir -p "$OUT"
 W="-O2 -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Werror -Icsrc/include -Icsrc"
+# as in CMakeLists.txt: sqrt without errno, so the core needs no libm
+CORE="-fno-math-errno"
 OBJS=""
-for f in model payload dynamics kinematics regressor trig plant; do
+for f in model payload dynamics kinematics regressor trig plant governor; do
     std=c99; [ $f = payload ] && std=c11
-    $CC -std=$std $W "$@" -c csrc/$f.c -o "$OUT/$f.o"
+    $CC -std=$std $W $CORE "$@" -c csrc/$f.c -o "$OUT/$f.o"
     OBJS="$OBJS $OUT/$f.o"
 done
 # the core must not need libm
@@ -19,13 +21,15 @@ if nm "$OUT"/*.o | grep -E ' U (sin|cos|sqrt|fabs|floor|round|lround|rint|nearby
     echo "core objects need libm"; exit 1
 fi
 ar rcs "$OUT/libffwd_core.a" $OBJS
-for t in tests/c/test_core.c tests/c/test_trig.c tests/c/test_payload_stress.c tests/c/test_payload_single.c; do
+# every tests/c/test_*.c, like the CMake build (C11 where it uses stdatomic.h)
+for t in tests/c/test_*.c; do
     name=$(basename "$t" .c)
     case $name in
         test_payload_single)   # includes csrc/payload.c itself, built without atomics
             $CC -std=c99 $W "$@" "$t" "$OUT/libffwd_core.a" -o "$OUT/$name" -lm ;;
         *)
-            $CC -std=c11 $W "$@" "$t" "$OUT/libffwd_core.a" -o "$OUT/$name" -lpthread -lm ;;
+            std=c99; grep -q stdatomic.h "$t" && std=c11
+            $CC -std=$std $W -Itests/c "$@" "$t" "$OUT/libffwd_core.a" -o "$OUT/$name" -lpthread -lm ;;
     esac
 done
 echo "built in $OUT"
