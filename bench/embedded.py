@@ -8,6 +8,10 @@ Builds (all with the DESIGN.md warning flags and -Werror):
   m4f  Cortex-M4F, single precision (-DFFWD_SINGLE): -mcpu=cortex-m4 -mfpu=fpv4-sp-d16
   aarch64  the C tests (tests/c/test_*.c) cross-built statically and run under
        qemu-aarch64; their exit codes must equal the x86-64 build's (and both pass).
+Size: text_bytes is what a controller links, every core object except plant.o (the
+simulated arm for hardware-in-the-loop tests, which runs on the PC side); the plant and
+the total over all objects are listed beside it, with the largest functions
+(arm-none-eabi-nm --size-sort) of the M7 build.
 Stack: gcc -fstack-usage gives each function's own frame and -fcallgraph-info its calls;
 the worst case of a public function is its frame plus the deepest chain below it
 (no recursion is allowed, so the graph is a DAG; calls into the C library, e.g.
@@ -43,6 +47,8 @@ FORBIDDEN = re.compile(r"^(_?_?(malloc|calloc|realloc|free|aligned_alloc|posix_m
                        r"abort|atexit|assert|__assert_func|__assert_fail|stdout|stderr|"
                        r"_impure_ptr|__errno|errno|_write|_read)(_r)?)$")
 GOALS = {"text_bytes": 24 * 1024, "max_stack_bytes": 2048}
+# objects a controller does not link: the simulated arm of the hardware-in-the-loop tests
+NOT_IN_CONTROLLER = ("plant.o",)
 
 
 def log(msg):
@@ -97,6 +103,23 @@ def sizes(target, objs):
             else:
                 per[name] = {"text": text, "data": data, "bss": bss}
     return total, per
+
+
+def function_sizes(target, objs, top=25):
+    """The largest functions and constants of the objects (nm --size-sort), biggest first."""
+    res = subprocess.run([TARGETS[target]["nm"], "--size-sort", "-S"] + objs,
+                         capture_output=True, text=True)
+    rows, obj = [], None
+    for line in res.stdout.splitlines():
+        if line.endswith(":") and line.strip():
+            obj = os.path.basename(line[:-1])
+            continue
+        parts = line.split()
+        if len(parts) == 4 and parts[2] in "tTrR":
+            rows.append({"object": obj or os.path.basename(objs[0]), "function": parts[3],
+                         "bytes": int(parts[1], 16)})
+    rows.sort(key=lambda r: -r["bytes"])
+    return rows[:top]
 
 
 def undefined(target, objs):
@@ -183,6 +206,13 @@ def embedded_build(target, outroot, publics):
     total, per = sizes(target, objs)
     rep.update(total or {})
     rep["per_object"] = per
+    if total:
+        rep["text_bytes_all_objects"] = total["text_bytes"]
+        rep["text_bytes_plant"] = sum(v["text"] for k, v in per.items() if k in NOT_IN_CONTROLLER)
+        rep["text_bytes"] = sum(v["text"] for k, v in per.items() if k not in NOT_IN_CONTROLLER)
+        rep["text_bytes_note"] = ("text_bytes: the objects a controller links (all but "
+                                  + ", ".join(NOT_IN_CONTROLLER) + ")")
+    rep["largest_functions"] = function_sizes(target, objs)
     undef = undefined(target, objs)
     rep["undefined_symbols"] = undef
     rep["heap_symbols"] = [s for s in undef if FORBIDDEN.match(s)]
@@ -283,11 +313,13 @@ def main(argv=None):
         log(f"building the core for {target}")
         report[target] = embedded_build(target, args.out, publics)
     m7 = report["m7"]
-    report["text_bytes"] = m7.get("text_bytes")
-    # the dynamics a controller links, without the governor and the plant simulation
+    report["text_bytes"] = m7.get("text_bytes")          # controller: all but plant.o
+    report["text_bytes_plant"] = m7.get("text_bytes_plant")
+    report["text_bytes_all_objects"] = m7.get("text_bytes_all_objects")
+    # the dynamics alone, without the governor and the plant simulation
     report["text_bytes_m7_without_governor_plant"] = sum(
         v["text"] for k, v in m7.get("per_object", {}).items()
-        if k not in ("governor.o", "plant.o")) or None
+        if k not in ("governor.o",) + NOT_IN_CONTROLLER) or None
     report["max_stack_bytes"] = max(
         [r["max_stack_bytes"] for r in (report["m7"], report["m4f"]) if r.get("max_stack_bytes")],
         default=None)
@@ -303,13 +335,18 @@ def main(argv=None):
         json.dump(report, fh, indent=1)
         fh.write("\n")
     print(f"embedded report: {path}")
-    for key in ("text_bytes", "text_bytes_m7_without_governor_plant", "max_stack_bytes", "heap_symbols", "warning_free", "qemu_aarch64_tests"):
+    for key in ("text_bytes", "text_bytes_plant", "text_bytes_all_objects",
+                "text_bytes_m7_without_governor_plant", "max_stack_bytes", "heap_symbols",
+                "warning_free", "qemu_aarch64_tests"):
         print(f"  {key}: {report.get(key)}")
     for t in TARGETS:
         r = report[t]
         if "text_bytes" in r:
-            print(f"  {t}: text {r['text_bytes']} data {r['data_bytes']} bss {r['bss_bytes']} bytes, "
+            print(f"  {t}: text {r['text_bytes']} (controller) + {r['text_bytes_plant']} (plant) "
+                  f"data {r['data_bytes']} bss {r['bss_bytes']} bytes, "
                   f"worst stack {r['max_stack_bytes']} bytes ({r['max_stack_function']})")
+            print(f"  {t}: largest: " + ", ".join(
+                f"{f['function']} {f['bytes']}" for f in r["largest_functions"][:8]))
         for e in r.get("errors", []) + r.get("warnings", []):
             print(f"  {t}: {e.splitlines()[0]}")
     bad = (report["heap_symbols"] or not report["warning_free"]

@@ -2,16 +2,19 @@
  * mass matrix (composite rigid body) and forward dynamics (articulated body) on (R, p)
  * transforms (see spatial.h). All work in the aligned joint frames set up by
  * ffwd_work_init (spatial.h): every joint turns about / slides along its local z axis, so
- * the joint rotation Rz(q) mixes two components only and the motion subspace is e_z.
- * Inverse dynamics, gravity and the torque parts apply the fixed rotation E and Rz(q)
- * separately (E as a signed permutation when it is one, a model property); the mass
- * matrix and forward dynamics use the full R = E Rz(q) in Featherstone's spatial form.
+ * the joint rotation Rz(theta) mixes two components only and the motion subspace is e_z,
+ * and the fixed rotation E0 is Rx(beta) for all but base children and second children in
+ * a tree. Inverse dynamics, gravity and the torque parts apply E0 and Rz(theta)
+ * separately (E0 by its kind: moves and sign flips for beta 0 or +-pi/2, four products
+ * for another beta, nine for a general E0); the mass matrix and forward dynamics use the
+ * full R = E0 Rz(theta) in Featherstone's spatial form.
  * Inverse dynamics and the torque parts use the 3-D vector form of Newton-Euler
  * (angular velocity and acceleration, linear acceleration of the frame origin: no linear
  * velocity is needed), the body forces computed in the outward pass.
  *
- * Per-body state lives in the work scratch: B(i) = Rt[9] p[3] then 18 numbers whose
- * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n).
+ * Per-body state lives in the work scratch: B(i) = R[9] p[3] then 18 numbers whose
+ * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n); inverse
+ * dynamics keeps [wd]x + [w]x[w]x in the place of R.
  */
 #include "spatial.h"
 
@@ -22,28 +25,50 @@
 #define TRIG_S(w) ((w)->scratch + FFWD_OFF_TRIG + FFWD_TRIG_STRIDE)
 #define TRIG_C(w) ((w)->scratch + FFWD_OFF_TRIG + 2 * FFWD_TRIG_STRIDE)
 
-/* sin, cos of every joint (two at a time); p = p' + q E e_z of every prismatic joint */
+/* sin, cos of theta = q + alpha (revolute) or alpha (prismatic) of every joint, two at a
+ * time; p = p' + q E0 e_z of every prismatic joint */
 void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     ffwd_real *qb = TRIG_Q(w);
+    const ffwd_real *al = w->scratch + FFWD_OFF_ALPHA, *rv = al + FFWD_MAX_DOF;
     const uint32_t n = m->dof;
     uint32_t i;
-    for (i = 0; i < n; i++) {
-        const ffwd_real x = q[i];
-        qb[i] = x;
-        if (m->joint[i].type != FFWD_REVOLUTE) {
-            const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E, *pc = K + FFWD_K_P;
-            ffwd_real *p = BODY(w, i) + 9;
-            p[0] = pc[0] + x * E[2];
-            p[1] = pc[1] + x * E[5];
-            p[2] = pc[2] + x * E[8];
+#ifdef FFWD_SINGLE
+    /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
+     * sin/cos of q, then the offset by the angle-sum formulas below */
+    (void)al;
+    for (i = 0; i < n; i++)
+        qb[i] = rv[i] * q[i];
+#else
+    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20 */
+    for (i = 0; i < n; i++)
+        qb[i] = rv[i] * q[i] + al[i];
+#endif
+    qb[n] = FR(0);
+    if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
+        for (i = 0; i < n; i++) {
+            if (m->joint[i].type != FFWD_REVOLUTE) {
+                const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E, *pc = K + FFWD_K_P;
+                ffwd_real *p = BODY(w, i) + 9;
+                p[0] = pc[0] + q[i] * E[2];
+                p[1] = pc[1] + q[i] * E[5];
+                p[2] = pc[2] + q[i] * E[8];
+            }
         }
     }
-    qb[n] = FR(0);
     ffwd_sincos_pairs_(qb, TRIG_S(w), TRIG_C(w), (n + 1u) / 2u);
+#ifdef FFWD_SINGLE
+    for (i = 0; i < n; i++) {
+        const ffwd_real *K = KONST(w, i), ca = K[FFWD_K_CA], sa = K[FFWD_K_SA];
+        ffwd_real *sp = TRIG_S(w) + i, *cp = TRIG_C(w) + i;
+        const ffwd_real sq = *sp, cq = *cp;
+        *sp = sq * ca + cq * sa;
+        *cp = cq * ca - sq * sa;
+    }
+#endif
 }
 
-/* R = E Rz(q) (revolute) or E (prismatic) and p of every body */
+/* R = E0 Rz(theta) and p of every body */
 void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
@@ -52,18 +77,15 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
     ffwd_trig_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E;
+        const ffwd_real s = sb[i], c = cb[i];
         ffwd_real *R = BODY(w, i);
+        for (r = 0; r < 3; r++) {
+            R[3 * r] = c * E[3 * r] + s * E[3 * r + 1];
+            R[3 * r + 1] = c * E[3 * r + 1] - s * E[3 * r];
+            R[3 * r + 2] = E[3 * r + 2];
+        }
         if (m->joint[i].type == FFWD_REVOLUTE) {
-            const ffwd_real s = sb[i], c = cb[i];
-            for (r = 0; r < 3; r++) {
-                R[3 * r] = c * E[3 * r] + s * E[3 * r + 1];
-                R[3 * r + 1] = c * E[3 * r + 1] - s * E[3 * r];
-                R[3 * r + 2] = E[3 * r + 2];
-            }
             R[9] = K[FFWD_K_P]; R[10] = K[FFWD_K_P + 1]; R[11] = K[FFWD_K_P + 2];
-        } else {
-            for (r = 0; r < 9; r++)
-                R[r] = E[r];
         }
     }
 }
@@ -78,6 +100,12 @@ static const ffwd_real *body_params(const ffwd_model *m, const ffwd_work *w, con
 static ffwd_real s_dot(const ffwd_joint *J, const ffwd_real *F)
 {
     return J->type == FFWD_REVOLUTE ? F[2] : F[5];
+}
+
+/* motion parent -> child (spatial.h xm_apply), one copy of the code for the passes below */
+static FFWD_NOINLINE void xm(const ffwd_real *R, const ffwd_real *p, const ffwd_real *mv, ffwd_real *o)
+{
+    xm_apply(R, p, mv, o);
 }
 
 /* Forward pass of velocities and accelerations (base acceleration -g: gravity enters
@@ -97,8 +125,8 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
             vp = BODY(w, J->parent) + 12;
             ap = BODY(w, J->parent) + 18;
         }
-        xm_apply(B, B + 9, vp, v);
-        xm_apply(B, B + 9, ap, a);
+        xm(B, B + 9, vp, v);
+        xm(B, B + 9, ap, a);
         if (J->type == FFWD_REVOLUTE) {
             /* v += e_z dq; a += e_z ddq + v x e_z dq */
             v[2] += dq;
@@ -111,173 +139,230 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
     }
 }
 
-/* Body force of a rigid body from the angular velocity w, angular acceleration wd and
- * linear acceleration al of its frame origin (all in its frame): with h = m c and Io the
- * inertia about the origin,  f = m al + wd x h + w x (w x h),  n = Io wd + w x (Io w) + h x al. */
-static inline void body_force(const ffwd_real *th, const ffwd_real *W, const ffwd_real *WD,
-                              const ffwd_real *AL, ffwd_real *F, ffwd_real *N)
+/* E0^T a (parent -> intermediate frame) and E0 u (back) by the kind of E0 (spatial.h):
+ * Rx(beta) for beta 0 or +-pi/2 is moves and sign flips, any other beta 4 products
+ * (K[4] = cos beta, K[7] = sin beta), a general E0 9. */
+#define RXT(K, a0, a1, a2, u0, u1, u2) do { \
+    (u0) = (a0); (u1) = (K)[4] * (a1) + (K)[7] * (a2); (u2) = (K)[4] * (a2) - (K)[7] * (a1); } while (0)
+#define RXM(K, u0, u1, u2, o0, o1, o2) do { \
+    (o0) = (u0); (o1) = (K)[4] * (u1) - (K)[7] * (u2); (o2) = (K)[7] * (u1) + (K)[4] * (u2); } while (0)
+#define GENT(K, a0, a1, a2, u0, u1, u2) do { \
+    (u0) = (K)[0] * (a0) + (K)[3] * (a1) + (K)[6] * (a2); \
+    (u1) = (K)[1] * (a0) + (K)[4] * (a1) + (K)[7] * (a2); \
+    (u2) = (K)[2] * (a0) + (K)[5] * (a1) + (K)[8] * (a2); } while (0)
+#define GENM(K, u0, u1, u2, o0, o1, o2) do { \
+    (o0) = (K)[0] * (u0) + (K)[1] * (u1) + (K)[2] * (u2); \
+    (o1) = (K)[3] * (u0) + (K)[4] * (u1) + (K)[5] * (u2); \
+    (o2) = (K)[6] * (u0) + (K)[7] * (u1) + (K)[8] * (u2); } while (0)
+#define E0T(kind, K, a0, a1, a2, u0, u1, u2) do { \
+    switch (kind) { \
+    case FFWD_KIND_I: (u0) = (a0); (u1) = (a1); (u2) = (a2); break; \
+    case FFWD_KIND_P90: (u0) = (a0); (u1) = (a2); (u2) = -(a1); break; \
+    case FFWD_KIND_M90: (u0) = (a0); (u1) = -(a2); (u2) = (a1); break; \
+    case FFWD_KIND_RX: RXT(K, a0, a1, a2, u0, u1, u2); break; \
+    default: GENT(K, a0, a1, a2, u0, u1, u2); break; \
+    } } while (0)
+#define E0M(kind, K, u0, u1, u2, o0, o1, o2) do { \
+    switch (kind) { \
+    case FFWD_KIND_I: (o0) = (u0); (o1) = (u1); (o2) = (u2); break; \
+    case FFWD_KIND_P90: (o0) = (u0); (o1) = -(u2); (o2) = (u1); break; \
+    case FFWD_KIND_M90: (o0) = (u0); (o1) = (u2); (o2) = -(u1); break; \
+    case FFWD_KIND_RX: RXM(K, u0, u1, u2, o0, o1, o2); break; \
+    default: GENM(K, u0, u1, u2, o0, o1, o2); break; \
+    } } while (0)
+
+/* o = Rz(theta)^T u (into the child frame) and o = Rz(theta) u, c = cos theta, s = sin theta */
+#define RZT(c, s, u0, u1, u2, o0, o1, o2) do { \
+    (o0) = (c) * (u0) + (s) * (u1); (o1) = (c) * (u1) - (s) * (u0); (o2) = (u2); } while (0)
+#define RZ(c, s, u0, u1, u2, o0, o1, o2) do { \
+    (o0) = (c) * (u0) - (s) * (u1); (o1) = (s) * (u0) + (c) * (u1); (o2) = (u2); } while (0)
+
+/* the kind of joint K's fixed rotation E0 */
+static int e0_kind(const ffwd_real *K)
 {
-    const ffwd_real *h = th + 1;
-    ffwd_real Iw[3], t[3], u[3], r[3];
-    Iw[0] = th[4] * W[0] + th[5] * W[1] + th[6] * W[2];
-    Iw[1] = th[5] * W[0] + th[7] * W[1] + th[8] * W[2];
-    Iw[2] = th[6] * W[0] + th[8] * W[1] + th[9] * W[2];
-    v3_cross(W, Iw, t);
-    v3_cross(h, AL, u);
-    N[0] = th[4] * WD[0] + th[5] * WD[1] + th[6] * WD[2] + t[0] + u[0];
-    N[1] = th[5] * WD[0] + th[7] * WD[1] + th[8] * WD[2] + t[1] + u[1];
-    N[2] = th[6] * WD[0] + th[8] * WD[1] + th[9] * WD[2] + t[2] + u[2];
-    v3_cross(W, h, t);
-    v3_cross(W, t, u);
-    v3_cross(WD, h, r);
-    F[0] = th[0] * AL[0] + r[0] + u[0];
-    F[1] = th[0] * AL[1] + r[1] + u[1];
-    F[2] = th[0] * AL[2] + r[2] + u[2];
+    int32_t k;
+    memcpy(&k, K + FFWD_K_KIND, sizeof k);
+    return (int)k;
 }
 
-/* The fixed rotation E of joint frame K: o = E^T x (parent -> child) and o = E x (child ->
- * parent). When E is a signed permutation (row r: sign K_SG[r] in column K_IX[r], the
- * column indices stored as int32 bits) the products are moves and sign flips. */
-static inline void e_tmul(const ffwd_real *K, const ffwd_real *x, ffwd_real *o)
+/* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
+ * linear acceleration al of each frame origin; base acceleration -g), the body forces
+ * computed in the same outward pass, then summed inward. With
+ *   Om = [wd]x + [w]x [w]x  (so that wd x r + w x (w x r) = Om r),
+ * the child's origin acceleration is al + Om p and the body force is
+ *   f = m al + Om h,   n = Io wd + w x (Io w) + h x al   (h = m c, Io about the origin),
+ * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
+ * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
+ * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
+ * B(i): Om at 0, (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
+static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
+                   const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
-    if (K[FFWD_K_PERM] != FR(0)) {
-        int32_t ix[3];
-        memcpy(ix, K + FFWD_K_IX, sizeof ix);
-        o[ix[0]] = K[FFWD_K_SG] * x[0];
-        o[ix[1]] = K[FFWD_K_SG + 1] * x[1];
-        o[ix[2]] = K[FFWD_K_SG + 2] * x[2];
-    } else {
-        m3_tmul(K + FFWD_K_E, x, o);
-    }
-}
-
-static inline void e_mul(const ffwd_real *K, const ffwd_real *x, ffwd_real *o)
-{
-    if (K[FFWD_K_PERM] != FR(0)) {
-        int32_t ix[3];
-        memcpy(ix, K + FFWD_K_IX, sizeof ix);
-        o[0] = K[FFWD_K_SG] * x[ix[0]];
-        o[1] = K[FFWD_K_SG + 1] * x[ix[1]];
-        o[2] = K[FFWD_K_SG + 2] * x[ix[2]];
-    } else {
-        m3_mul(K + FFWD_K_E, x, o);
-    }
-}
-
-/* o = Rz(q)^T x and o = Rz(q) x with c = cos q, s = sin q (o may not alias x) */
-static inline void rz_tmul(ffwd_real c, ffwd_real s, const ffwd_real *x, ffwd_real *o)
-{
-    o[0] = c * x[0] + s * x[1];
-    o[1] = c * x[1] - s * x[0];
-    o[2] = x[2];
-}
-
-static inline void rz_mul(ffwd_real c, ffwd_real s, const ffwd_real *x, ffwd_real *o)
-{
-    o[0] = c * x[0] - s * x[1];
-    o[1] = s * x[0] + c * x[1];
-    o[2] = x[2];
-}
-
-/* Recursive Newton-Euler in 3-D vector form (angular velocity, angular acceleration,
- * linear acceleration of each frame origin; base acceleration -g), the body forces
- * computed in the same outward pass, then summed inward. Needs ffwd_trig_.
- * B(i): w at 12, wd at 15, al at 18, f at 24, n at 27. */
-static void id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
-                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau)
-{
+    ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
-    ffwd_real a0[3];
     const uint32_t n = m->dof;
     uint32_t i;
-    a0[0] = -g[0]; a0[1] = -g[1]; a0[2] = -g[2];
+    ffwd_real jtp[6];
+    second_moment(tp, jtp);
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
+        const ffwd_real *th = body_params(m, w, tp, i);
+        const ffwd_real *Jm = (int32_t)i == m->tool_parent ? jtp : K + FFWD_K_J;
         ffwd_real *B = BODY(w, i);
-        const int rev = J->type == FFWD_REVOLUTE;
-        const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
+        const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real t[3], u[3], x[3], wm[3], wdm[3], xm[3], W[3], WD[3], AL[3];
-        int k;
+        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2, ww, o0, o1, o2;
+        ffwd_real O0, O1, O2, O3, O4, O5, O6, O7, O8;
         if (J->parent >= 0) {
-            const ffwd_real *P = BODY(w, J->parent), *wp = P + 12, *wdp = P + 15, *ap = P + 18;
-            v3_cross(wp, p, u);
-            v3_cross(wp, u, t);
-            v3_cross(wdp, p, u);
-            x[0] = ap[0] + u[0] + t[0]; x[1] = ap[1] + u[1] + t[1]; x[2] = ap[2] + u[2] + t[2];
-            e_tmul(K, wp, wm);
-            e_tmul(K, wdp, wdm);
-            e_tmul(K, x, xm);
-            if (rev) {
-                rz_tmul(c, s, wm, W);
-                rz_tmul(c, s, wdm, WD);
-                rz_tmul(c, s, xm, AL);
-                /* wd += e_z ddq + w_r x e_z dq; w += e_z dq */
-                WD[0] += W[1] * dq; WD[1] -= W[0] * dq; WD[2] += ddq;
-                W[2] += dq;
-            } else {
-                for (k = 0; k < 3; k++) {
-                    W[k] = wm[k]; WD[k] = wdm[k]; AL[k] = xm[k];
-                }
-                /* al += e_z ddq + 2 w x e_z dq */
-                AL[0] += FR(2) * W[1] * dq; AL[1] -= FR(2) * W[0] * dq; AL[2] += ddq;
+            const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
+            const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
+            x0 = P[18] + P[0] * p0 + P[1] * p1 + P[2] * p2;
+            x1 = P[19] + P[3] * p0 + P[4] * p1 + P[5] * p2;
+            x2 = P[20] + P[6] * p0 + P[7] * p1 + P[8] * p2;
+            switch (kind) {
+            case FFWD_KIND_I:
+                RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
+                RZT(c, s, P[15], P[16], P[17], d0, d1, d2);
+                RZT(c, s, x0, x1, x2, a0, a1, a2);
+                break;
+            case FFWD_KIND_P90:
+                RZT(c, s, P[12], P[14], -P[13], w0, w1, w2);
+                RZT(c, s, P[15], P[17], -P[16], d0, d1, d2);
+                RZT(c, s, x0, x2, -x1, a0, a1, a2);
+                break;
+            case FFWD_KIND_M90:
+                RZT(c, s, P[12], -P[14], P[13], w0, w1, w2);
+                RZT(c, s, P[15], -P[17], P[16], d0, d1, d2);
+                RZT(c, s, x0, -x2, x1, a0, a1, a2);
+                break;
+            case FFWD_KIND_RX: {
+                ffwd_real u0, u1, u2;
+                RXT(K, P[12], P[13], P[14], u0, u1, u2);
+                RZT(c, s, u0, u1, u2, w0, w1, w2);
+                RXT(K, P[15], P[16], P[17], u0, u1, u2);
+                RZT(c, s, u0, u1, u2, d0, d1, d2);
+                RXT(K, x0, x1, x2, u0, u1, u2);
+                RZT(c, s, u0, u1, u2, a0, a1, a2);
+                break;
+            }
+            default: {
+                ffwd_real u0, u1, u2;
+                GENT(K, P[12], P[13], P[14], u0, u1, u2);
+                RZT(c, s, u0, u1, u2, w0, w1, w2);
+                GENT(K, P[15], P[16], P[17], u0, u1, u2);
+                RZT(c, s, u0, u1, u2, d0, d1, d2);
+                GENT(K, x0, x1, x2, u0, u1, u2);
+                RZT(c, s, u0, u1, u2, a0, a1, a2);
+                break;
+            }
             }
         } else {
             /* base parent: no velocity, acceleration -g */
-            e_tmul(K, a0, xm);
-            W[0] = W[1] = FR(0);
-            WD[0] = WD[1] = FR(0);
+            ffwd_real u0, u1, u2;
+            E0T(kind, K, -g[0], -g[1], -g[2], u0, u1, u2);
+            RZT(c, s, u0, u1, u2, a0, a1, a2);
+            w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
             if (rev) {
-                /* w = e_z dq, wd = e_z ddq: body_force with the zeros taken out */
-                const ffwd_real *th = body_params(m, w, tp, i), *h = th + 1;
-                const ffwd_real d2 = dq * dq;
-                rz_tmul(c, s, xm, AL);
-                W[2] = dq; WD[2] = ddq;
-                v3_cross(h, AL, u);
-                B[27] = ddq * th[6] - d2 * th[8] + u[0];
-                B[28] = ddq * th[8] + d2 * th[6] + u[1];
-                B[29] = ddq * th[9] + u[2];
-                B[24] = th[0] * AL[0] - ddq * h[1] - d2 * h[0];
-                B[25] = th[0] * AL[1] + ddq * h[0] - d2 * h[1];
-                B[26] = th[0] * AL[2];
-                for (k = 0; k < 3; k++) {
-                    B[12 + k] = W[k]; B[15 + k] = WD[k]; B[18 + k] = AL[k];
-                }
+                /* w = e_z dq, wd = e_z ddq: the body force with the zeros taken out */
+                const ffwd_real d2q = dq * dq, M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
+                B[0] = B[4] = -d2q; B[1] = -ddq; B[3] = ddq;
+                B[2] = B[5] = B[6] = B[7] = B[8] = FR(0);
+                B[12] = B[13] = B[15] = B[16] = FR(0);
+                B[14] = dq; B[17] = ddq;
+                B[18] = a0; B[19] = a1; B[20] = a2;
+                B[24] = M * a0 - ddq * h1 - d2q * h0;
+                B[25] = M * a1 + ddq * h0 - d2q * h1;
+                B[26] = M * a2;
+                B[27] = ddq * th[6] - d2q * th[8] + h1 * a2 - h2 * a1;
+                B[28] = ddq * th[8] + d2q * th[6] + h2 * a0 - h0 * a2;
+                B[29] = ddq * th[9] + h0 * a1 - h1 * a0;
                 continue;
             }
-            AL[0] = xm[0]; AL[1] = xm[1]; AL[2] = xm[2] + ddq;
-            W[2] = FR(0); WD[2] = FR(0);
         }
-        body_force(body_params(m, w, tp, i), W, WD, AL, B + 24, B + 27);
-        for (k = 0; k < 3; k++) {
-            B[12 + k] = W[k]; B[15 + k] = WD[k]; B[18 + k] = AL[k];
+        if (rev) {
+            /* wd += w x e_z dq + e_z ddq; w += e_z dq */
+            d0 += w1 * dq; d1 -= w0 * dq; d2 += ddq;
+            w2 += dq;
+        } else {
+            /* al += 2 w x e_z dq + e_z ddq */
+            a0 += FR(2) * w1 * dq; a1 -= FR(2) * w0 * dq; a2 += ddq;
+        }
+        x0 = w0 * w0; x1 = w1 * w1; x2 = w2 * w2;
+        ww = x0 + x1 + x2;
+        O0 = x0 - ww; O4 = x1 - ww; O8 = x2 - ww;
+        x0 = w0 * w1; x1 = w0 * w2; x2 = w1 * w2;
+        O1 = x0 - d2; O3 = x0 + d2;
+        O2 = x1 + d1; O6 = x1 - d1;
+        O5 = x2 - d0; O7 = x2 + d0;
+        B[0] = O0; B[1] = O1; B[2] = O2; B[3] = O3; B[4] = O4; B[5] = O5;
+        B[6] = O6; B[7] = O7; B[8] = O8;
+        B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
+        B[18] = a0; B[19] = a1; B[20] = a2;
+        {
+            const ffwd_real M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
+            o0 = M * a0 + O0 * h0 + O1 * h1 + O2 * h2;
+            o1 = M * a1 + O3 * h0 + O4 * h1 + O5 * h2;
+            o2 = M * a2 + O6 * h0 + O7 * h1 + O8 * h2;
+            B[24] = o0; B[25] = o1; B[26] = o2;
+            o0 = h1 * a2 - h2 * a1;
+            o1 = h2 * a0 - h0 * a2;
+            o2 = h0 * a1 - h1 * a0;
+        }
+        {
+            /* the off-diagonal entries of Om J (Om rows O0..O2, O3..O5, O6..O8) */
+            const ffwd_real Jxx = Jm[0], Jxy = Jm[1], Jxz = Jm[2], Jyy = Jm[3], Jyz = Jm[4], Jzz = Jm[5];
+            const ffwd_real m01 = O0 * Jxy + O1 * Jyy + O2 * Jyz, m10 = O3 * Jxx + O4 * Jxy + O5 * Jxz;
+            const ffwd_real m02 = O0 * Jxz + O1 * Jyz + O2 * Jzz, m20 = O6 * Jxx + O7 * Jxy + O8 * Jxz;
+            const ffwd_real m12 = O3 * Jxz + O4 * Jyz + O5 * Jzz, m21 = O6 * Jxy + O7 * Jyy + O8 * Jyz;
+            B[27] = o0 + m21 - m12;
+            B[28] = o1 + m02 - m20;
+            B[29] = o2 + m10 - m01;
         }
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
-        const ffwd_real *B = BODY(w, i), *F = B + 24, *N = B + 27;
+        const ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE;
-        tau[i] = rev ? N[2] : F[2];
+        ffwd_real t = rev ? B[29] : B[26];
+        if (drive)
+            t += J->armature * qdd[i] + friction_torque(J, qd[i]);
+        tau[i] = t;
+        acc |= exp_bits(t);
         if (J->parent >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
-            ffwd_real *P = BODY(w, J->parent), rf[3], rn[3], t[3];
-            if (rev) {
-                ffwd_real zf[3], zn[3];
-                rz_mul(cb[i], sb[i], F, zf);
-                rz_mul(cb[i], sb[i], N, zn);
-                e_mul(K, zf, rf);
-                e_mul(K, zn, rn);
-            } else {
-                e_mul(K, F, rf);
-                e_mul(K, N, rn);
+            const int kind = e0_kind(K);
+            const ffwd_real c = cb[i], s = sb[i];
+            ffwd_real *P = BODY(w, J->parent), f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
+            RZ(c, s, B[24], B[25], B[26], u0, u1, u2);
+            RZ(c, s, B[27], B[28], B[29], v0, v1, v2);
+            switch (kind) {
+            case FFWD_KIND_I:
+                f0 = u0; f1 = u1; f2 = u2; n0 = v0; n1 = v1; n2 = v2;
+                break;
+            case FFWD_KIND_P90:
+                f0 = u0; f1 = -u2; f2 = u1; n0 = v0; n1 = -v2; n2 = v1;
+                break;
+            case FFWD_KIND_M90:
+                f0 = u0; f1 = u2; f2 = -u1; n0 = v0; n1 = v2; n2 = -v1;
+                break;
+            case FFWD_KIND_RX:
+                RXM(K, u0, u1, u2, f0, f1, f2);
+                RXM(K, v0, v1, v2, n0, n1, n2);
+                break;
+            default:
+                GENM(K, u0, u1, u2, f0, f1, f2);
+                GENM(K, v0, v1, v2, n0, n1, n2);
+                break;
             }
-            v3_cross(p, rf, t);
-            P[24] += rf[0]; P[25] += rf[1]; P[26] += rf[2];
-            P[27] += rn[0] + t[0]; P[28] += rn[1] + t[1]; P[29] += rn[2] + t[2];
+            P[24] += f0; P[25] += f1; P[26] += f2;
+            P[27] += n0 + p[1] * f2 - p[2] * f1;
+            P[28] += n1 + p[2] * f0 - p[0] * f2;
+            P[29] += n2 + p[0] * f1 - p[1] * f0;
         }
     }
+    return finite_bits(acc);
 }
 
 ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -288,7 +373,6 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const int shape[1] = { FFWD_SHAPE_N };
     const ffwd_real *tp;
     ffwd_status st;
-    uint32_t i;
     if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
@@ -297,57 +381,81 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     }
     tp = ffwd_load_tool_body_(m, w);
     ffwd_trig_(m, w, q);
-    id_pass(m, w, tp, qd, qdd, m->gravity, tau);
-    for (i = 0; i < m->dof; i++)
-        tau[i] += m->joint[i].armature * qdd[i] + friction_torque(&m->joint[i], qd[i]);
-    return ffwd_out_ok_(tau, m->dof);
+    if (id_pass(m, w, tp, qd, qdd, m->gravity, tau, 1))
+        return FFWD_OK;
+    ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
+    return FFWD_E_NONFINITE;
 }
 
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18. */
-static void gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, ffwd_real *tau)
+static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, ffwd_real *tau)
 {
+    ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
+    if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
+        /* serial chain: the parent's g and the child's mass and first moment stay in
+         * registers */
+        ffwd_real g0 = m->gravity[0], g1 = m->gravity[1], g2 = m->gravity[2];
+        ffwd_real Mc = FR(0), c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        for (i = 0; i < m->dof; i++) {
+            const ffwd_real *K = KONST(w, i);
+            ffwd_real *B = BODY(w, i), u0, u1, u2;
+            E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
+            RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
+            B[12] = g0; B[13] = g1; B[14] = g2;
+        }
+        for (i = m->dof; i-- > 0u;) {
+            const ffwd_real *B = BODY(w, i), *th = body_params(m, w, tp, i), *K = KONST(w, i);
+            const int rev = m->joint[i].type == FFWD_REVOLUTE;
+            const ffwd_real M = th[0] + Mc, h0 = th[1] + c0, h1 = th[2] + c1, h2 = th[3] + c2;
+            const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
+            ffwd_real u0, u1, u2;
+            tau[i] = rev ? B[12] * h1 - B[13] * h0 : -M * B[14];
+            acc |= exp_bits(tau[i]);
+            RZ(cb[i], sb[i], h0, h1, h2, u0, u1, u2);
+            E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
+            Mc = M;
+            c0 += M * p[0]; c1 += M * p[1]; c2 += M * p[2];
+        }
+        return finite_bits(acc);
+    }
     for (i = 0; i < m->dof; i++) {
         ffwd_real *B = BODY(w, i);
         const int32_t par = m->joint[i].parent;
         const ffwd_real *gp = par >= 0 ? BODY(w, par) + 12 : m->gravity;
         const ffwd_real *th = body_params(m, w, tp, i);
         const ffwd_real *K = KONST(w, i);
-        if (m->joint[i].type == FFWD_REVOLUTE) {
-            ffwd_real gm[3];
-            e_tmul(K, gp, gm);
-            rz_tmul(cb[i], sb[i], gm, B + 12);
-        } else {
-            e_tmul(K, gp, B + 12);
-        }
+        const int kind = e0_kind(K);
+        ffwd_real u0, u1, u2;
+        E0T(kind, K, gp[0], gp[1], gp[2], u0, u1, u2);
+        RZT(cb[i], sb[i], u0, u1, u2, B[12], B[13], B[14]);
         B[18] = th[0]; B[19] = th[1]; B[20] = th[2]; B[21] = th[3];
     }
     for (i = m->dof; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
-        ffwd_real *B = BODY(w, i), t[3];
+        ffwd_real *B = BODY(w, i);
         const ffwd_real M = B[18], *g = B + 12, *h = B + 19;
         const int rev = J->type == FFWD_REVOLUTE;
         tau[i] = rev ? g[0] * h[1] - g[1] * h[0] : -M * g[2];
+        acc |= exp_bits(tau[i]);
         if (J->parent >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
             ffwd_real *P = BODY(w, J->parent);
-            if (rev) {
-                ffwd_real zh[3];
-                rz_mul(cb[i], sb[i], h, zh);
-                e_mul(K, zh, t);
-            } else {
-                e_mul(K, h, t);
-            }
+            const int kind = e0_kind(K);
+            ffwd_real u0, u1, u2, t0, t1, t2;
+            RZ(cb[i], sb[i], h[0], h[1], h[2], u0, u1, u2);
+            E0M(kind, K, u0, u1, u2, t0, t1, t2);
             P[18] += M;
-            P[19] += t[0] + M * p[0];
-            P[20] += t[1] + M * p[1];
-            P[21] += t[2] + M * p[2];
+            P[19] += t0 + M * p[0];
+            P[20] += t1 + M * p[1];
+            P[21] += t2 + M * p[2];
         }
     }
+    return finite_bits(acc);
 }
 
 ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
@@ -363,8 +471,10 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
             return st;
     }
     ffwd_trig_(m, w, q);
-    gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau);
-    return ffwd_out_ok_(tau, m->dof);
+    if (gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau))
+        return FFWD_OK;
+    ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
+    return FFWD_E_NONFINITE;
 }
 
 ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -390,9 +500,9 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
-    id_pass(m, w, tp, zn, qdd, zero3, inertial);
-    id_pass(m, w, tp, qd, zn, zero3, velocity);
-    gravity_pass(m, w, tp, gravity);
+    (void)id_pass(m, w, tp, zn, qdd, zero3, inertial, 0);
+    (void)id_pass(m, w, tp, qd, zn, zero3, velocity, 0);
+    (void)gravity_pass(m, w, tp, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);
@@ -475,63 +585,60 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
 #define ABA_UU 40
 #define ABA_CV 41
 
-static void skew(const ffwd_real *p, ffwd_real *X)
+static FFWD_NOINLINE void skew(const ffwd_real *p, ffwd_real *X)
 {
     X[0] = FR(0); X[1] = -p[2]; X[2] = p[1];
     X[3] = p[2]; X[4] = FR(0); X[5] = -p[0];
     X[6] = -p[1]; X[7] = p[0]; X[8] = FR(0);
 }
 
+/* O = A B (3x3), one copy of the code for the articulated-body passes */
+static FFWD_NOINLINE void mm3(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
+{
+    m3_mm(A, B, O);
+}
+
 /* O = R A R^T */
-static void rot_sandwich(const ffwd_real *R, const ffwd_real *A, ffwd_real *O)
+static FFWD_NOINLINE void rot_sandwich(const ffwd_real *R, const ffwd_real *A, ffwd_real *O)
 {
     ffwd_real T[9];
     int i, j;
-    m3_mm(R, A, T);
+    mm3(R, A, T);
     for (i = 0; i < 3; i++)
         for (j = 0; j < 3; j++)
             O[3 * i + j] = T[3 * i] * R[3 * j] + T[3 * i + 1] * R[3 * j + 1] + T[3 * i + 2] * R[3 * j + 2];
 }
 
-/* O = R A R^T for a symmetric A (upper triangle computed, then mirrored) */
-static void rot_sandwich_sym(const ffwd_real *R, const ffwd_real *A, ffwd_real *O)
+/* acc += X^T Ia X for the 6x6 block matrix Ia = [A B; B^T C] given in the child frame;
+ * T: 63 reals of scratch */
+static void aba_add_to_parent(const ffwd_real *R, const ffwd_real *p, const ffwd_real *Ia, ffwd_real *acc,
+                              ffwd_real *T)
 {
-    ffwd_real T[9];
+    ffwd_real *A = T, *Bm = T + 9, *C = T + 18, *px = T + 27, *T1 = T + 36, *T2 = T + 45, *Bt = T + 54;
     int i, j;
-    m3_mm(R, A, T);
-    for (i = 0; i < 3; i++)
-        for (j = i; j < 3; j++)
-            O[3 * i + j] = O[3 * j + i] = T[3 * i] * R[3 * j] + T[3 * i + 1] * R[3 * j + 1] + T[3 * i + 2] * R[3 * j + 2];
-}
-
-/* acc += X^T Ia X for the 6x6 block matrix Ia = [A B; B^T C] given in the child frame */
-static void aba_add_to_parent(const ffwd_real *R, const ffwd_real *p, const ffwd_real *Ia, ffwd_real *acc)
-{
-    ffwd_real A[9], Bm[9], C[9], px[9], T1[9], T2[9], Bt[9];
-    int i, j;
-    rot_sandwich_sym(R, Ia + ABA_A, A);
+    rot_sandwich(R, Ia + ABA_A, A);
     rot_sandwich(R, Ia + ABA_B, Bm);
-    rot_sandwich_sym(R, Ia + ABA_C, C);
+    rot_sandwich(R, Ia + ABA_C, C);
     skew(p, px);
     /* A'' = A - B px + px B^T - px C px ;  B'' = B + px C ;  C'' = C */
     for (i = 0; i < 3; i++)
         for (j = 0; j < 3; j++)
             Bt[3 * i + j] = Bm[3 * j + i];
-    m3_mm(px, C, T1);          /* px C */
-    m3_mm(T1, px, T2);         /* px C px */
+    mm3(px, C, T1);          /* px C */
+    mm3(T1, px, T2);         /* px C px */
     for (i = 0; i < 9; i++) {
         acc[ABA_C + i] += C[i];
         acc[ABA_B + i] += Bm[i] + T1[i];
         A[i] -= T2[i];
     }
-    m3_mm(Bm, px, T1);
-    m3_mm(px, Bt, T2);
+    mm3(Bm, px, T1);
+    mm3(px, Bt, T2);
     for (i = 0; i < 9; i++)
         acc[ABA_A + i] += A[i] - T1[i] + T2[i];
 }
 
 /* o = Ia x for the block matrix */
-static void aba_apply(const ffwd_real *Ia, const ffwd_real *x, ffwd_real *o)
+static FFWD_NOINLINE void aba_apply(const ffwd_real *Ia, const ffwd_real *x, ffwd_real *o)
 {
     ffwd_real t[3], u[3];
     m3_mul(Ia + ABA_A, x, t);
@@ -574,7 +681,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
         /* c = a from pass_va (qdd = 0, no gravity) minus the parent's part X a_parent */
         if (J->parent >= 0) {
             vp = BODY(w, J->parent) + 18;
-            xm_apply(B, B + 9, vp, vq);
+            xm(B, B + 9, vp, vq);
         } else {
             for (k = 0; k < 6; k++)
                 vq[k] = FR(0);
@@ -594,7 +701,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     /* pass 2: articulated inertias, inward */
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
-        ffwd_real *B = BODY(w, i), *X = AUX(w, i), *Uo = X + ABA_U, Ia[27], pa[6], t[6];
+        ffwd_real *B = BODY(w, i), *X = AUX(w, i), *Uo = X + ABA_U, *Ia = w->scratch + FFWD_OFF_X, pa[6], t[6];
         ffwd_real D, invD;
         /* U = Ia S with S = e_z (angular or linear): a column of Ia = [A B; B^T C] */
         if (J->type == FFWD_REVOLUTE) {
@@ -624,7 +731,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
             aba_apply(Ia, X + ABA_CV, t);
             for (k = 0; k < 6; k++)
                 pa[k] = X[ABA_P + k] + t[k] + U[k] * X[ABA_UU] * invD;
-            aba_add_to_parent(B, B + 9, Ia, P);
+            aba_add_to_parent(B, B + 9, Ia, P, Ia + 27);
             xf_add_t(B, B + 9, pa, P + ABA_P);
         }
     }
@@ -640,7 +747,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
             ap[0] = ap[1] = ap[2] = FR(0);
             ap[3] = -m->gravity[0]; ap[4] = -m->gravity[1]; ap[5] = -m->gravity[2];
         }
-        xm_apply(B, B + 9, ap, a);
+        xm(B, B + 9, ap, a);
         for (k = 0; k < 6; k++)
             a[k] += X[ABA_CV + k];
         qa = (X[ABA_UU] - v3_dot(X + ABA_U, a) - v3_dot(X + ABA_U + 3, a + 3)) * X[ABA_D];

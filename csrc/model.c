@@ -25,30 +25,65 @@ const char *ffwd_status_str(ffwd_status s)
     }
 }
 
-/* Finite test on the bit pattern, so that it survives -ffast-math and needs no libm:
- * (exponent + 1) >> width is 1 exactly when the exponent is all ones (Inf, NaN). */
-#ifdef FFWD_SINGLE
-static uint32_t nonfinite1(const ffwd_real *x)
+/* ---- rigid-body parameters in another frame (declared in spatial.h) ---- */
+/* see spatial.h */
+void ffwd_params_to_parent_(const ffwd_real *R, const ffwd_real *p, const ffwd_real *th, ffwd_real *o)
 {
-    uint32_t b;
-    memcpy(&b, x, sizeof b);
-    return (((b >> 23) & 0xffu) + 1u) >> 8;
+    ffwd_real I[9], RI[9], J[9], hR[3], ph, pp;
+    const ffwd_real m = th[0];
+    int i, j;
+    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
+    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
+    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
+    m3_mm(R, I, RI);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            J[3 * i + j] = RI[3 * i] * R[3 * j] + RI[3 * i + 1] * R[3 * j + 1] + RI[3 * i + 2] * R[3 * j + 2];
+    m3_mul(R, th + 1, hR);
+    ph = FR(2) * v3_dot(p, hR);
+    pp = m * v3_dot(p, p);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            J[3 * i + j] -= p[i] * hR[j] + hR[i] * p[j] + m * p[i] * p[j];
+    J[0] += ph + pp; J[4] += ph + pp; J[8] += ph + pp;
+    o[0] = m;
+    o[1] = hR[0] + m * p[0];
+    o[2] = hR[1] + m * p[1];
+    o[3] = hR[2] + m * p[2];
+    o[4] = J[0]; o[5] = J[1]; o[6] = J[2];
+    o[7] = J[4]; o[8] = J[5]; o[9] = J[8];
 }
-#else
-static uint32_t nonfinite1(const ffwd_real *x)
-{
-    uint64_t b;
-    memcpy(&b, x, sizeof b);
-    return (uint32_t)((((b >> 52) & 0x7ffu) + 1u) >> 11);
-}
-#endif
 
+/* see spatial.h */
+void ffwd_params_rotate_t_(const ffwd_real *A, const ffwd_real *th, ffwd_real *o)
+{
+    ffwd_real I[9], IA[9];
+    int i, j;
+    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
+    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
+    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
+    m3_mm(I, A, IA);
+    o[0] = th[0];
+    m3_tmul(A, th + 1, o + 1);
+    for (i = 0; i < 3; i++)
+        for (j = i; j < 3; j++)
+            I[3 * i + j] = A[i] * IA[j] + A[3 + i] * IA[3 + j] + A[6 + i] * IA[6 + j];
+    o[4] = I[0]; o[5] = I[1]; o[6] = I[2];
+    o[7] = I[4]; o[8] = I[5]; o[9] = I[8];
+}
+
+/* Finite test on the bit pattern, so that it survives -ffast-math and needs no libm: the
+ * exponent field plus one carries into the sign bit exactly when it is all ones. */
 int ffwd_finite_(const ffwd_real *x, uint32_t n)
 {
-    uint32_t i, bad = 0u;
-    for (i = 0; i < n; i++)
-        bad |= nonfinite1(x + i);
-    return bad == 0u;
+    uint32_t i;
+    ffwd_bits_ acc = 0u;
+    for (i = 0; i < n; i++) {
+        ffwd_bits_ u;
+        memcpy(&u, x + i, sizeof u);
+        acc |= (u & (ffwd_bits_)FFWD_EXP_MASK_) + (ffwd_bits_)FFWD_EXP_ONE_; /* see ffwd_ready_ */
+    }
+    return ((acc >> FFWD_TOP_BIT_) & 1u) == 0u;
 }
 
 ffwd_status ffwd_out_ok_(ffwd_real *x, uint32_t n)
@@ -241,21 +276,69 @@ int ffwd_bound_(const ffwd_model *m, const ffwd_work *w)
 }
 
 #ifdef FFWD_SINGLE
-#define PERM_TOL FR(1e-7)
+#define SPLIT_TOL FR(1e-6)
+#define PARALLEL2 FR(1e-10)
 #else
-#define PERM_TOL FR(1e-15)
+#define SPLIT_TOL FR(1e-13)
+#define PARALLEL2 FR(1e-24)
 #endif
 
+/* 1/sqrt(x) for x > 0 (normal): first guess from the bits, then Newton steps. */
+static FFWD_NOINLINE ffwd_real rsqrt_(ffwd_real x)
+{
+    ffwd_real y;
+    int k;
+#ifdef FFWD_SINGLE
+    uint32_t b;
+    memcpy(&b, &x, sizeof b);
+    b = 0x5f3759dfu - (b >> 1);
+#else
+    uint64_t b;
+    memcpy(&b, &x, sizeof b);
+    b = 0x5fe6eb50c7b537a9u - (b >> 1);
+#endif
+    memcpy(&y, &b, sizeof y);
+    for (k = 0; k < 6; k++)
+        y = y * (FR(1.5) - FR(0.5) * x * y * y);
+    return y;
+}
+
+/* O = A B and O = A^T B (3x3), one copy of the code each for the init */
+static FFWD_NOINLINE void mm3(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
+{
+    m3_mm(A, B, O);
+}
+
+static FFWD_NOINLINE void tm3(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
+{
+    m3_tm(A, B, O);
+}
+
+/* The angle with cosine c and sine s (c^2 + s^2 = 1): from the nearest multiple of pi/2,
+ * Newton-like steps x += sin(angle - x), each cubing the error (|error| <= pi/4 at first). */
+static ffwd_real angle_of(ffwd_real c, ffwd_real s)
+{
+    const ffwd_real half_pi = FR(1.5707963267948966);
+    ffwd_real x = FR(0), sx, cx;
+    int k;
+    if (absr(s) > absr(c))
+        x = s > FR(0) ? half_pi : -half_pi;
+    else if (c < FR(0))
+        x = s >= FR(0) ? FR(2) * half_pi : FR(-2) * half_pi;
+    for (k = 0; k < 6; k++) {
+        ffwd_sincos_(x, &sx, &cx);
+        x += s * cx - c * sx;
+    }
+    return x;
+}
+
 /* The alignment rotation of a joint axis: A with A e_z = a/|a|, a function of the axis
- * alone. For a_z >= 0 the rotation about e_z x a taking e_z to a (a coordinate axis gives
- * a signed permutation, e_z gives 1); for a_z < 0 the one for -a followed by a half turn
- * about x. |a| is normalised with Newton steps (|a|^2 is within 1e-6 of 1). */
+ * alone. For a_z >= 0 the rotation about e_z x a taking e_z to a (e_z gives 1); for
+ * a_z < 0 the one for -a followed by a half turn about x. */
 static void align_of(const ffwd_real *a, ffwd_real *A)
 {
-    ffwd_real n2 = v3_dot(a, a), r = FR(1), v[3], d, sg;
+    ffwd_real r = rsqrt_(v3_dot(a, a)), v[3], d, sg;
     int k;
-    for (k = 0; k < 4; k++)
-        r = r * (FR(1.5) - FR(0.5) * n2 * r * r);
     sg = a[2] >= FR(0) ? FR(1) : FR(-1);
     v[0] = sg * a[0] * r; v[1] = sg * a[1] * r; v[2] = sg * a[2] * r;
     d = FR(1) / (FR(1) + v[2]);
@@ -269,67 +352,94 @@ static void align_of(const ffwd_real *a, ffwd_real *A)
     }
 }
 
-/* E a signed permutation (within PERM_TOL): then snap it and record per row the sign (a
- * real) and the column index (int32 bits, see e_tmul in dynamics.c) */
-static void detect_perm(ffwd_real *K)
+/* Turns A (in place) about its own z axis so that the fixed rotation of the child joint
+ * Jc (alignment Ac), E = A^T rot_c Ac, gets E[0][2] = 0, i.e. the form Rz(0) Rx Rz. */
+static void turn_for_child(ffwd_real *A, const ffwd_joint *Jc, const ffwd_real *Ac)
 {
-    ffwd_real *E = K + FFWD_K_E;
-    int32_t ix[3];
-    int r, c, used = 0, ok = 1;
-    for (r = 0; r < 3; r++) {
-        int best = 0;
-        for (c = 1; c < 3; c++)
-            if (absr(E[3 * r + c]) > absr(E[3 * r + best]))
-                best = c;
-        for (c = 0; c < 3; c++) {
-            ffwd_real e = absr(E[3 * r + c]);
-            if (c == best ? e < FR(1) - PERM_TOL : e > PERM_TOL)
-                ok = 0;
-        }
-        used |= 1 << best;
-        ix[r] = (int32_t)best;
-        K[FFWD_K_SG + r] = E[3 * r + best] > FR(0) ? FR(1) : FR(-1);
+    ffwd_real z[3], v[3], g[3], s2, r, cf, sf;
+    int k;
+    z[0] = Ac[2]; z[1] = Ac[5]; z[2] = Ac[8];
+    m3_mul(Jc->rot, z, v);
+    m3_tmul(A, v, g);
+    s2 = g[0] * g[0] + g[1] * g[1];
+    if (!(s2 > PARALLEL2))
+        return; /* axes parallel: E[0][2] is 0 already */
+    r = rsqrt_(s2);
+    cf = g[1] * r;
+    sf = -g[0] * r;
+    for (k = 0; k < 3; k++) {
+        const ffwd_real a0 = A[3 * k], a1 = A[3 * k + 1];
+        A[3 * k] = cf * a0 + sf * a1;
+        A[3 * k + 1] = cf * a1 - sf * a0;
     }
-    if (!ok || used != 7) {
-        K[FFWD_K_PERM] = FR(0);
-        return;
-    }
-    K[FFWD_K_PERM] = FR(1);
-    memcpy(K + FFWD_K_IX, ix, sizeof ix);
-    for (r = 0; r < 3; r++)
-        for (c = 0; c < 3; c++)
-            E[3 * r + c] = c == (int)ix[r] ? K[FFWD_K_SG + r] : FR(0);
 }
 
-/* Aligned constants of joint J (see spatial.h): Ap = A of the parent (NULL: base), A its own */
+/* Aligned constants of joint J (see spatial.h): Ap = A of the parent (NULL: base), A its
+ * own; E = Ap^T rot A is split into E0 Rz(alpha), E0 snapped to Rx(beta) where it is one. */
 static void cache_joint(const ffwd_joint *J, const ffwd_real *Ap, const ffwd_real *A, ffwd_real *K)
 {
-    ffwd_real RA[9];
-    int k, r, c;
+    ffwd_real RA[9], E[9], ca = FR(1), sa = FR(0), *E0 = K + FFWD_K_E;
+    int32_t kind;
+    int k, r;
     for (k = 0; k < FFWD_K_STRIDE; k++)
         K[k] = FR(0);
-    m3_mm(J->rot, A, RA);
+    mm3(J->rot, A, RA);
     if (Ap == NULL) {
         for (k = 0; k < 9; k++)
-            K[FFWD_K_E + k] = RA[k];
+            E[k] = RA[k];
         for (k = 0; k < 3; k++)
             K[FFWD_K_P + k] = J->pos[k];
     } else {
-        for (r = 0; r < 3; r++)
-            for (c = 0; c < 3; c++)
-                K[FFWD_K_E + 3 * r + c] = Ap[r] * RA[c] + Ap[3 + r] * RA[3 + c] + Ap[6 + r] * RA[6 + c];
+        tm3(Ap, RA, E);
         m3_tmul(Ap, J->pos, K + FFWD_K_P);
     }
     params_rotate_t(A, J->inertia, K + FFWD_K_TH);
-    detect_perm(K);
+    second_moment(K + FFWD_K_TH, K + FFWD_K_J);
+    if (absr(E[2]) <= SPLIT_TOL) {
+        /* first row of Rx(beta) Rz(alpha) is (cos alpha, -sin alpha, 0) */
+        ffwd_real nr = rsqrt_(E[0] * E[0] + E[1] * E[1]);
+        ca = E[0] * nr;
+        sa = -E[1] * nr;
+    }
+    for (r = 0; r < 3; r++) {
+        E0[3 * r] = ca * E[3 * r] - sa * E[3 * r + 1];
+        E0[3 * r + 1] = sa * E[3 * r] + ca * E[3 * r + 1];
+        E0[3 * r + 2] = E[3 * r + 2];
+    }
+    K[FFWD_K_CA] = ca;
+    K[FFWD_K_SA] = sa;
+    K[FFWD_K_AL] = angle_of(ca, sa);
+    kind = FFWD_KIND_GEN;
+    if (absr(E0[0] - FR(1)) <= SPLIT_TOL && absr(E0[1]) <= SPLIT_TOL && absr(E0[2]) <= SPLIT_TOL
+        && absr(E0[3]) <= SPLIT_TOL && absr(E0[6]) <= SPLIT_TOL) {
+        /* E0 = Rx(beta): snap it, and beta 0, +-pi/2, pi exactly */
+        ffwd_real cb = E0[4], sb = E0[7];
+        kind = FFWD_KIND_RX;
+        if (absr(sb) <= SPLIT_TOL) {
+            kind = cb > FR(0) ? FFWD_KIND_I : FFWD_KIND_RX; /* a half turn is Rx(pi) */
+            cb = cb > FR(0) ? FR(1) : FR(-1);
+            sb = FR(0);
+        } else if (absr(cb) <= SPLIT_TOL) {
+            kind = sb > FR(0) ? FFWD_KIND_P90 : FFWD_KIND_M90;
+            sb = sb > FR(0) ? FR(1) : FR(-1);
+            cb = FR(0);
+        }
+        for (k = 0; k < 9; k++)
+            E0[k] = FR(0);
+        E0[0] = FR(1);
+        E0[4] = E0[8] = cb;
+        E0[7] = sb;
+        E0[5] = -sb;
+    }
+    memcpy(K + FFWD_K_KIND, &kind, sizeof kind); /* int32 bits (see e0_kind in dynamics.c) */
 }
 
 ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
 {
     ffwd_status st;
-    uint32_t i;
+    uint32_t i, c;
     ffwd_real *Atp, *tool;
-    int r, c;
+    int r;
     if (w == NULL || m == NULL)
         return FFWD_E_ARG;
     w->model = NULL;
@@ -340,20 +450,34 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
         return st;
     ffwd_zero_(w->scratch, (uint32_t)FFWD_WORK_REALS);
     /* the A_i are kept in the (per-call) AUX area while the constants are computed */
+    for (i = 0; i < m->dof; i++)
+        align_of(m->joint[i].axis, w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * i);
     for (i = 0; i < m->dof; i++) {
         const int32_t par = m->joint[i].parent;
         ffwd_real *A = w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * i;
-        align_of(m->joint[i].axis, A);
+        for (c = i + 1u; c < m->dof; c++)
+            if (m->joint[c].parent == (int32_t)i) {
+                turn_for_child(A, &m->joint[c], w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * c);
+                break;
+            }
         cache_joint(&m->joint[i], par >= 0 ? w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)par : NULL,
                     A, w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
     }
+    for (i = 0; i < m->dof; i++) {
+        const int rev = m->joint[i].type == FFWD_REVOLUTE;
+        w->scratch[FFWD_OFF_ALPHA + i] = w->scratch[FFWD_OFF_K + FFWD_K_STRIDE * i + FFWD_K_AL];
+        w->scratch[FFWD_OFF_ALPHA + FFWD_MAX_DOF + i] = rev ? FR(1) : FR(0);
+        w->scratch[FFWD_OFF_NPRIS] += rev ? FR(0) : FR(1);
+    }
+    w->scratch[FFWD_OFF_CHAIN] = FR(1);
+    for (i = 0; i < m->dof; i++)
+        if (m->joint[i].parent != (int32_t)i - 1)
+            w->scratch[FFWD_OFF_CHAIN] = FR(0);
     Atp = w->scratch + FFWD_OFF_ATP;
     tool = w->scratch + FFWD_OFF_TOOL;
     for (r = 0; r < 9; r++)
         Atp[r] = w->scratch[FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)m->tool_parent + (uint32_t)r];
-    for (r = 0; r < 3; r++)
-        for (c = 0; c < 3; c++)
-            tool[3 * r + c] = Atp[r] * m->tool_rot[c] + Atp[3 + r] * m->tool_rot[3 + c] + Atp[6 + r] * m->tool_rot[6 + c];
+    tm3(Atp, m->tool_rot, tool);
     m3_tmul(Atp, m->tool_pos, tool + 9);
     params_rotate_t(Atp, m->payload, w->scratch + FFWD_OFF_PAY);
     ffwd_zero_(w->scratch + FFWD_OFF_A, (uint32_t)(FFWD_A_STRIDE * FFWD_MAX_DOF));

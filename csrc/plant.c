@@ -246,9 +246,10 @@ static ffwd_status plant_substep(ffwd_plant *p, ffwd_real *q, ffwd_real *qd, con
 {
     const ffwd_model *m = p->model;
     const uint32_t n = m->dof;
-    ffwd_real a1[FFWD_MAX_DOF], a2[FFWD_MAX_DOF], a3[FFWD_MAX_DOF], a4[FFWD_MAX_DOF];
-    ffwd_real q2[FFWD_MAX_DOF], v2[FFWD_MAX_DOF], q3[FFWD_MAX_DOF], v3[FFWD_MAX_DOF];
-    ffwd_real q4[FFWD_MAX_DOF], v4[FFWD_MAX_DOF];
+    /* stage accelerations and states in the plant's scratch (tmp[0..2] hold q, qd, tau) */
+    ffwd_real *a1 = p->tmp[3], *a2 = p->tmp[4], *a3 = p->tmp[5], *a4 = p->tmp[6];
+    ffwd_real *q2 = p->tmp[7], *v2 = p->tmp[8], *q3 = p->tmp[9], *v3 = p->tmp[10];
+    ffwd_real *q4 = p->tmp[11], *v4 = p->tmp[12];
     ffwd_status s;
     uint32_t i;
     s = ffwd_forward_dynamics(m, &p->work, q, qd, tau, a1);
@@ -290,7 +291,7 @@ static ffwd_status plant_substep(ffwd_plant *p, ffwd_real *q, ffwd_real *qd, con
 
 ffwd_status ffwd_plant_step(ffwd_plant *p, const ffwd_real *tau)
 {
-    ffwd_real q[FFWD_MAX_DOF], qd[FFWD_MAX_DOF], u[FFWD_MAX_DOF];
+    ffwd_real *q, *qd, *u;
     ffwd_status s = plant_ready(p);
     uint32_t i;
     uint32_t k;
@@ -307,6 +308,9 @@ ffwd_status ffwd_plant_step(ffwd_plant *p, const ffwd_real *tau)
     if (!plant_vec_finite(tau, n)) {
         return FFWD_E_NONFINITE;
     }
+    q = p->tmp[0];
+    qd = p->tmp[1];
+    u = p->tmp[2];
     for (i = 0; i < n; ++i) {
         const ffwd_joint *j = &p->model->joint[i];
         u[i] = tau[i];

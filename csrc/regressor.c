@@ -27,6 +27,14 @@
 #define RG_WW 18
 #define RG_MARK 19
 
+/* o[3v..3v+3) = R x[3v..3v+3) for nv vectors (one copy of the code) */
+static FFWD_NOINLINE void mul_n(const ffwd_real *R, const ffwd_real *x, ffwd_real *o, uint32_t nv)
+{
+    uint32_t v;
+    for (v = 0; v < nv; v++)
+        m3_mul(R, x + 3 * v, o + 3 * v);
+}
+
 /* the 10 entries s . (A theta) for a motion vector s = (sw, sv) in the original frame */
 static void regressor_row(const ffwd_real *X, const ffwd_real *sw, const ffwd_real *sv, ffwd_real *row)
 {
@@ -68,25 +76,30 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     ffwd_zero_(Y, n * cols);
     ffwd_transforms_(m, w, q);
     ffwd_pass_va_(m, w, qd, qdd, m->gravity);
-    /* per body: A_k = rot_k^T A_parent E_k, and v, a in the original frame */
+    /* per body: A_k = rot_k^T A_parent E_k (E_k = E0_k Rz(alpha_k)), and v, a in the original frame */
     for (k = 0; k < n; k++) {
         const ffwd_joint *Jk = &m->joint[k];
         const ffwd_real *B = BODY(w, k), *E = KONST(w, k) + FFWD_K_E;
-        ffwd_real *X = AUX(w, k), *A = X + RG_A, vl[3], al[3], T[9];
-        int r, c;
+        const ffwd_real ca = KONST(w, k)[FFWD_K_CA], sa = KONST(w, k)[FFWD_K_SA];
+        ffwd_real *X = AUX(w, k), *A = X + RG_A, vl[3], al[3], T[9], t[12];
+        int r;
         if (Jk->parent >= 0) {
             m3_mm(AUX(w, Jk->parent) + RG_A, E, T);
         } else {
             for (r = 0; r < 9; r++)
                 T[r] = E[r];
         }
-        for (r = 0; r < 3; r++)
-            for (c = 0; c < 3; c++)
-                A[3 * r + c] = Jk->rot[r] * T[c] + Jk->rot[3 + r] * T[3 + c] + Jk->rot[6 + r] * T[6 + c];
-        m3_mul(A, B + 12, X + RG_W);
-        m3_mul(A, B + 15, vl);
-        m3_mul(A, B + 18, X + RG_AW);
-        m3_mul(A, B + 21, al);
+        m3_tm(Jk->rot, T, A);
+        /* E = E0 Rz(alpha): A = rot^T A_parent E0 Rz(alpha) */
+        for (r = 0; r < 3; r++) {
+            const ffwd_real a0 = A[3 * r], a1 = A[3 * r + 1];
+            A[3 * r] = ca * a0 + sa * a1;
+            A[3 * r + 1] = ca * a1 - sa * a0;
+        }
+        mul_n(A, B + 12, t, 4u); /* w, v, dw, dv */
+        for (r = 0; r < 3; r++) {
+            X[RG_W + r] = t[r]; vl[r] = t[3 + r]; X[RG_AW + r] = t[6 + r]; al[r] = t[9 + r];
+        }
         v3_cross(X + RG_W, vl, X + RG_BETA);
         X[RG_BETA] += al[0]; X[RG_BETA + 1] += al[1]; X[RG_BETA + 2] += al[2];
         X[RG_WW] = v3_dot(X + RG_W, X + RG_W);
@@ -107,8 +120,7 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
                 continue;
             }
             X[RG_MARK] = mark;
-            m3_mul(X + RG_A, s, so);
-            m3_mul(X + RG_A, s + 3, so + 3);
+            mul_n(X + RG_A, s, so, 2u);
             regressor_row(X, so, so + 3, Y + j * cols + 13u * k);
         }
     }

@@ -19,26 +19,42 @@
 
 #define FR(x) ((ffwd_real)(x))
 
+/* keeps a helper out of line (one copy of its code) where the compiler supports it */
+#if defined(__GNUC__)
+#define FFWD_NOINLINE __attribute__((noinline))
+#else
+#define FFWD_NOINLINE
+#endif
+
 /* ---- work scratch layout (offsets into ffwd_work.scratch) ----------------------- */
 /* Aligned joint frames. ffwd_work_init chooses for every joint i a constant rotation A_i
- * (a function of axis_i alone, see model.c) with A_i e_z = axis_i and re-expresses joint
- * frame i with axes A_i (the base keeps its axes). In these frames every joint moves
- * about / along its local z axis, and the fixed part of the transform parent -> child is
+ * with A_i e_z = axis_i (the base keeps its axes) and re-expresses joint frame i with axes
+ * A_i. In these frames every joint moves about / along its local z axis, and the fixed
+ * part of the transform parent -> child is
  *   E_i = A_parent^T rot_i A_i,   p'_i = A_parent^T pos_i
  * so that x_parent = E_i Rz(q_i) x_child + p'_i (revolute) or
  *          x_parent = E_i (x_child + q_i e_z) + p'_i (prismatic).
- * Body parameters are rotated at init (m, A^T h, A^T I A). Per joint K(i):
- *   E[9] p'[3] th'[10] perm flag, perm column index[3], perm sign[3]
- * perm flag 1 when E is a signed permutation: row r of E has its one nonzero, sign[r],
- * in column index[r] (three int32 stored in the bytes of the index slots). */
-#define FFWD_K_STRIDE 30
+ * A_i is free up to a turn about its z axis; init turns it so that the fixed rotation of
+ * i's first child c has the form E_c = Rx(beta_c) Rz(alpha_c) (modified Denavit-Hartenberg
+ * form), and splits every E_i = E0_i Rz(alpha_i), keeping E0_i and the angle offset as
+ * cos/sin alpha_i. The joint rotation is then x_parent = E0_i Rz(theta_i) x_child with
+ * theta_i = q_i + alpha_i (revolute) or alpha_i (prismatic). By its kind, E0_i is
+ * Rx(beta_i) with beta_i 0 or +-pi/2 (moves and sign flips), Rx(beta_i) (4 products per
+ * vector), or a general rotation (9; base children, second children in a tree).
+ * Body parameters are rotated at init (m, A^T h, A^T I A), and the body's second moment
+ * J = sum m r r^T = tr(I)/2 1 - I kept beside them. Per joint K(i):
+ *   E0[9] p'[3] th'[10] cos alpha, sin alpha, kind (int32 bits), alpha, J[6] */
+#define FFWD_K_STRIDE 32
 #define FFWD_OFF_K      0
 #define FFWD_K_E  0
 #define FFWD_K_P  9
 #define FFWD_K_TH 12
-#define FFWD_K_PERM 22
-#define FFWD_K_IX 23
-#define FFWD_K_SG 26
+#define FFWD_K_CA 22
+#define FFWD_K_SA 23
+#define FFWD_K_KIND 24
+#define FFWD_K_AL 25
+#define FFWD_K_J 26
+enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, FFWD_KIND_GEN = 4 };
 /* per-call per-body state: Rt[9] p[3] then 18 numbers (meaning depends on the function) */
 #define FFWD_B_STRIDE 30
 #define FFWD_OFF_B      (FFWD_OFF_K + FFWD_K_STRIDE * FFWD_MAX_DOF)
@@ -57,9 +73,17 @@
 /* q (zero padded to an even count), sin q, cos q for the joint transforms */
 #define FFWD_TRIG_STRIDE (FFWD_MAX_DOF + 1)
 #define FFWD_OFF_TRIG   (FFWD_OFF_TMP + 64)
-#define FFWD_LAYOUT_END (FFWD_OFF_TRIG + 3 * FFWD_TRIG_STRIDE)
+/* temporaries of the articulated-body pass (kept off the stack) */
+#define FFWD_OFF_X      (FFWD_OFF_TRIG + 3 * FFWD_TRIG_STRIDE)
+/* dense copies for the angle loop: alpha[MAX_DOF], 1 (revolute) or 0 per joint, and the
+ * number of prismatic joints */
+#define FFWD_OFF_ALPHA  (FFWD_OFF_X + 96)
+#define FFWD_OFF_NPRIS  (FFWD_OFF_ALPHA + 2 * FFWD_MAX_DOF)
+/* 1 when the model is a serial chain (parent of joint i is i - 1) */
+#define FFWD_OFF_CHAIN  (FFWD_OFF_NPRIS + 1)
+#define FFWD_LAYOUT_END (FFWD_OFF_CHAIN + 1)
 
-typedef char ffwd_index_fits[(3 * sizeof(ffwd_real) >= 3 * sizeof(int32_t)) ? 1 : -1];
+typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
 typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
@@ -88,9 +112,10 @@ int ffwd_payload_params_ok_(const ffwd_real *th);
 enum { FFWD_SHAPE_N = 0, FFWD_SHAPE_NN = 1, FFWD_SHAPE_44 = 2, FFWD_SHAPE_6N = 3, FFWD_SHAPE_REG = 4 };
 ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
                         ffwd_real *const *out, const int *shape, int nout);
-/* sin q, cos q into the trig area, and p of every prismatic body into B(i) + 9 (dynamics.c). */
+/* sin theta, cos theta (theta = q + alpha, or alpha for a prismatic joint) into the trig
+ * area, and p of every prismatic body into B(i) + 9 (dynamics.c). */
 void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
-/* Full R = E Rz(q) (or E), p of every body (aligned frames) into the work's body area
+/* Full R = E0 Rz(theta), p of every body (aligned frames) into the work's body area
  * (dynamics.c); calls ffwd_trig_. */
 void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Forward pass of spatial velocity and acceleration of every body (aligned frames), base
@@ -113,6 +138,12 @@ static inline uint32_t ffwd_stamp_of_(const ffwd_model *m)
     return s;
 }
 
+#ifdef FFWD_SINGLE
+typedef uint32_t ffwd_bits_;
+#else
+typedef uint64_t ffwd_bits_;
+#endif
+
 /* Nonzero when some x[i] is Inf or NaN, from the bits: the exponent field plus one
  * carries into the sign bit exactly when the exponent is all ones. */
 #ifdef FFWD_SINGLE
@@ -131,6 +162,20 @@ static inline uint32_t ffwd_stamp_of_(const ffwd_model *m)
 #define FFWD_Q_BIG_    ((uint64_t)(2048 - (1023 + 20)) << 52)
 #define FFWD_Q_MAX_    1048576.0
 #endif
+
+/* The exponent field of x plus one: its top bit is set exactly when x is Inf or NaN.
+ * OR these together over many x and test once with finite_bits. */
+static inline ffwd_bits_ exp_bits(ffwd_real x)
+{
+    ffwd_bits_ u;
+    memcpy(&u, &x, sizeof u);
+    return (u & (ffwd_bits_)FFWD_EXP_MASK_) + (ffwd_bits_)FFWD_EXP_ONE_;
+}
+
+static inline int finite_bits(ffwd_bits_ acc)
+{
+    return ((acc >> FFWD_TOP_BIT_) & 1u) == 0u;
+}
 
 /* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, the
  * joint positions a finite with |a[i]| < FFWD_Q_MAX_ (sin/cos are exact to 2 ulp far
@@ -208,6 +253,15 @@ static inline void m3_mm(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
             O[3 * i + j] = A[3 * i] * B[j] + A[3 * i + 1] * B[3 + j] + A[3 * i + 2] * B[6 + j];
 }
 
+/* O = A^T B (3x3, O may not alias A or B) */
+static inline void m3_tm(const ffwd_real *A, const ffwd_real *B, ffwd_real *O)
+{
+    int i, j;
+    for (i = 0; i < 3; i++)
+        for (j = 0; j < 3; j++)
+            O[3 * i + j] = A[i] * B[j] + A[3 + i] * B[3 + j] + A[6 + i] * B[6 + j];
+}
+
 /* ---- spatial algebra ------------------------------------------------------------------ */
 /* motion parent -> child: o = X m */
 static inline void xm_apply(const ffwd_real *R, const ffwd_real *p, const ffwd_real *mv, ffwd_real *o)
@@ -263,74 +317,44 @@ static inline void crf(const ffwd_real *v, const ffwd_real *f, ffwd_real *o)
     v3_cross(v, f + 3, o + 3);
 }
 
-/* Rigid-body parameters th (child frame) expressed in the parent frame (R, p). */
+/* Rigid-body parameters th (child frame) expressed in the parent frame (R, p), and the same
+ * body's parameters in axes rotated by A (x_old = A x_new): m, A^T h, A^T I A. One copy
+ * of each in model.c (they are not in the per-cycle inner loops). */
+void ffwd_params_to_parent_(const ffwd_real *R, const ffwd_real *p, const ffwd_real *th, ffwd_real *o);
+void ffwd_params_rotate_t_(const ffwd_real *A, const ffwd_real *th, ffwd_real *o);
 static inline void params_to_parent(const ffwd_real *R, const ffwd_real *p, const ffwd_real *th, ffwd_real *o)
 {
-    ffwd_real I[9], RI[9], J[9], hR[3], ph, pp;
-    const ffwd_real m = th[0];
-    int i, j;
-    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
-    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
-    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
-    m3_mm(R, I, RI);
-    for (i = 0; i < 3; i++)
-        for (j = i; j < 3; j++)
-            J[3 * i + j] = RI[3 * i] * R[3 * j] + RI[3 * i + 1] * R[3 * j + 1] + RI[3 * i + 2] * R[3 * j + 2];
-    m3_mul(R, th + 1, hR);
-    ph = FR(2) * v3_dot(p, hR);
-    pp = m * v3_dot(p, p);
-    for (i = 0; i < 3; i++)
-        for (j = i; j < 3; j++)
-            J[3 * i + j] -= p[i] * hR[j] + hR[i] * p[j] + m * p[i] * p[j];
-    J[0] += ph + pp; J[4] += ph + pp; J[8] += ph + pp;
-    o[0] = m;
-    o[1] = hR[0] + m * p[0];
-    o[2] = hR[1] + m * p[1];
-    o[3] = hR[2] + m * p[2];
-    o[4] = J[0]; o[5] = J[1]; o[6] = J[2];
-    o[7] = J[4]; o[8] = J[5]; o[9] = J[8];
+    ffwd_params_to_parent_(R, p, th, o);
 }
 
-/* The same body's parameters in axes rotated by A (x_old = A x_new): m, A^T h, A^T I A. */
 static inline void params_rotate_t(const ffwd_real *A, const ffwd_real *th, ffwd_real *o)
 {
-    ffwd_real I[9], IA[9];
-    int i, j;
-    I[0] = th[4]; I[1] = th[5]; I[2] = th[6];
-    I[3] = th[5]; I[4] = th[7]; I[5] = th[8];
-    I[6] = th[6]; I[7] = th[8]; I[8] = th[9];
-    m3_mm(I, A, IA);
-    o[0] = th[0];
-    m3_tmul(A, th + 1, o + 1);
-    for (i = 0; i < 3; i++)
-        for (j = i; j < 3; j++)
-            I[3 * i + j] = A[i] * IA[j] + A[3 + i] * IA[3 + j] + A[6 + i] * IA[6 + j];
-    o[4] = I[0]; o[5] = I[1]; o[6] = I[2];
-    o[7] = I[4]; o[8] = I[5]; o[9] = I[8];
+    ffwd_params_rotate_t_(A, th, o);
 }
 
-/* c ? a : b without a branch (bit blend), for data-independent timing */
-#ifdef FFWD_SINGLE
-typedef uint32_t ffwd_bits_;
-#else
-typedef uint64_t ffwd_bits_;
-#endif
-static inline ffwd_real select_real(int c, ffwd_real a, ffwd_real b)
+/* The second moment J = sum m r r^T = tr(I)/2 1 - I of the body th (about the same origin),
+ * six entries Jxx Jxy Jxz Jyy Jyz Jzz. */
+static inline void second_moment(const ffwd_real *th, ffwd_real *J)
 {
-    ffwd_bits_ ua, ub, mask = (ffwd_bits_)0 - (ffwd_bits_)(c != 0);
-    ffwd_real r;
-    memcpy(&ua, &a, sizeof ua);
-    memcpy(&ub, &b, sizeof ub);
-    ua = (ua & mask) | (ub & ~mask);
-    memcpy(&r, &ua, sizeof r);
-    return r;
+    const ffwd_real t = FR(0.5) * (th[4] + th[7] + th[9]);
+    J[0] = t - th[4]; J[1] = -th[5]; J[2] = -th[6];
+    J[3] = t - th[7]; J[4] = -th[8]; J[5] = t - th[9];
 }
 
-/* clamp to [-1, 1], branch-free */
+/* |x| from the bits (no libm, no branch) */
+static inline ffwd_real abs_real(ffwd_real x)
+{
+    ffwd_bits_ u;
+    memcpy(&u, &x, sizeof u);
+    u &= ~((ffwd_bits_)1 << (8u * sizeof(ffwd_real) - 1u));
+    memcpy(&x, &u, sizeof x);
+    return x;
+}
+
+/* clamp to [-1, 1] without a branch: (|x + 1| - |x - 1|) / 2 */
 static inline ffwd_real clamp1(ffwd_real x)
 {
-    x = select_real(x > FR(1), FR(1), x);
-    return select_real(x < FR(-1), FR(-1), x);
+    return FR(0.5) * (abs_real(x + FR(1)) - abs_real(x - FR(1)));
 }
 
 /* drive friction torque at velocity qd */

@@ -3,18 +3,14 @@
  * x = k*pi/2 + r with k = round(x * 2/pi). pi/2 is split into four parts whose
  * products with k are exact (three short parts) or nearly so (the last), so that
  * r is obtained as an unevaluated sum rh + rl to about twice the working precision
- * for |x| up to about 1e5 (double) / 1e4 (float). sin and cos of r on [-pi/4, pi/4]
+ * for |x| up to about 1e5 (double) / 1e4 (float) (renormalised with a fast two-sum:
+ * the low part is not larger than the high part). sin and cos of r on [-pi/4, pi/4]
  * are polynomials (fit error below a tenth of an ulp), the first-order effect of
- * rl is added, and the quadrant k mod 4 selects sign and function by table lookup:
+ * rl is added, and the quadrant k mod 4 selects sign and function by bit masks:
  * there is no data-dependent branch or loop. Accuracy is measured by
  * tests/c/test_trig.c against the platform's libm.
  */
 #include "spatial.h"
-
-/* Two-sum (Knuth): s + e = a + b exactly. */
-#define TWO_SUM(a, b, s, e) do { \
-    ffwd_real bb_; (s) = (a) + (b); bb_ = (s) - (a); \
-    (e) = ((a) - ((s) - bb_)) + ((b) - bb_); } while (0)
 
 #ifdef FFWD_SINGLE
 /* pi/2 = P1 + P2 + P3 + P4 (11, 11, 11, 24 significant bits) */
@@ -58,51 +54,10 @@ static ffwd_real cos_tail(ffwd_real z)
 #endif
 }
 
-void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c)
-{
-    volatile ffwd_real kv;
-    ffwd_real k, t1, hi, e1, hi2, e2, lo, rh, rl, z, sr, cr, hz, w, tab[2];
-    uint32_t n;
-
-    /* nearest integer k; volatile keeps the compiler from folding the magic add */
-    kv = x * TWO_OVER_PI + ROUND_MAGIC;
-    k = kv - ROUND_MAGIC;
-#ifdef FFWD_SINGLE
-    n = (uint32_t)(int32_t)k;
-#else
-    n = (uint32_t)(int64_t)k;
-#endif
-
-    t1 = x - k * P1;                 /* exact */
-    TWO_SUM(t1, -k * P2, hi, e1);    /* k*P2 exact, hi + e1 exact */
-#ifdef FFWD_SINGLE
-    /* k*P3 is not small against hi in float: subtract it exactly too */
-    TWO_SUM(hi, -k * P3, hi2, e2);   /* k*P3 exact, hi2 + e2 exact */
-    lo = (e1 + e2) - k * P4;
-#else
-    hi2 = hi;                        /* k*P3 < 1e-16 |hi| or hi itself tiny: fold it in lo */
-    e2 = -k * P3;
-    lo = (e1 + e2) - k * P4;
-#endif
-    TWO_SUM(hi2, lo, rh, rl);
-
-    z = rh * rh;
-    sr = rh + (rh * z * sin_tail(z) + rl * (FR(1) - FR(0.5) * z));
-    hz = FR(0.5) * z;
-    w = FR(1) - hz;
-    cr = w + ((((FR(1) - w) - hz) + z * z * cos_tail(z)) - rh * rl);
-
-    tab[0] = sr;
-    tab[1] = cr;
-    *s = tab[n & 1u] * (FR(1) - FR(2) * (ffwd_real)((n >> 1) & 1u));
-    *c = tab[(n + 1u) & 1u] * (FR(1) - FR(2) * (ffwd_real)(((n + 1u) >> 1) & 1u));
-}
-
-/* The same computation as ffwd_sincos_ (bit for bit) for x[0 .. 2*npairs), written two
- * lanes at a time so that the compiler can keep both lanes in one vector register:
- * k is read from the bits of the rounded value instead of a volatile round trip (no
- * float-to-integer conversion, so no undefined behaviour for huge x), and the quadrant
- * is applied with bit masks (swap s/c, flip the sign bit) instead of a table. */
+/* sin and cos of x[0 .. 2*npairs), written two lanes at a time so that the compiler can
+ * keep both lanes in one vector register: k is read from the bits of the rounded value
+ * (no float-to-integer conversion, so no undefined behaviour for huge x), and the
+ * quadrant is applied with bit masks (swap s/c, flip the sign bit), no table, no branch. */
 #define LANES 2
 void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd_real *restrict c,
                         uint32_t npairs)
@@ -111,7 +66,7 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
     uint32_t p;
     for (p = 0; p < npairs; p++) {
         ffwd_real xv[LANES], kv[LANES], k[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
-        ffwd_real lo[LANES], rh[LANES], s2[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
+        ffwd_real lo[LANES], rh[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
         ffwd_real hz[LANES], wv[LANES];
         ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
         int l;
@@ -142,8 +97,7 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
             lo[l] = (e1[l] - k[l] * P3) - k[l] * P4;
 #endif
             rh[l] = hi[l] + lo[l];
-            s2[l] = rh[l] - hi[l];
-            rl[l] = (hi[l] - (rh[l] - s2[l])) + (lo[l] - s2[l]);
+            rl[l] = lo[l] - (rh[l] - hi[l]); /* fast two-sum: |lo| <= |hi| up to rounding */
             z[l] = rh[l] * rh[l];
             sr[l] = rh[l] + (rh[l] * z[l] * sin_tail(z[l]) + rl[l] * (FR(1) - FR(0.5) * z[l]));
             hz[l] = FR(0.5) * z[l];
@@ -160,4 +114,15 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
         memcpy(s + LANES * p, os, sizeof os);
         memcpy(c + LANES * p, oc, sizeof oc);
     }
+}
+
+/* One value: the pair routine with a zero second lane (one copy of the code). */
+void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c)
+{
+    ffwd_real xs[2], ss[2], cs[2];
+    xs[0] = x;
+    xs[1] = FR(0);
+    ffwd_sincos_pairs_(xs, ss, cs, 1u);
+    *s = ss[0];
+    *c = cs[0];
 }

@@ -65,6 +65,7 @@ typedef struct ffwd_plant {
     uint32_t head;                 /* ring index of the newest sensor sample */
     ffwd_real ring_q[FFWD_PLANT_MAX_DELAY + 1u][FFWD_MAX_DOF];
     ffwd_real ring_qd[FFWD_PLANT_MAX_DELAY + 1u][FFWD_MAX_DOF];
+    ffwd_real tmp[13][FFWD_MAX_DOF];  /* integration scratch of ffwd_plant_step (not the stack) */
 } ffwd_plant;
 
 /* Fills cfg with: the given dt, RK4, 1 sub-step, no delay, saturation on, exact
