@@ -48,22 +48,36 @@ def _as_state(name, value, n):
     return a
 
 
-# The C core refuses joint positions with |q| >= 2^20 (its sin/cos range, FFWD_E_ARG).
-Q_MAX = 2.0 ** 20
+def _q_max():
+    """The C core's bound on |q| (FFWD_Q_MAX_ in csrc/spatial.h; beyond it sin/cos lose
+    accuracy and the core returns FFWD_E_ARG), as the extension exports it. Without the
+    extension: the double-precision build's 2^20."""
+    global _Q_MAX
+    if _Q_MAX is None:
+        try:
+            from ._core import Q_MAX as q_max
+        except ImportError:
+            q_max = 2.0 ** 20
+        _Q_MAX = float(q_max)
+    return _Q_MAX
+
+
+_Q_MAX = None
 
 
 def _nonfinite_message(names, arrays):
     """'q[3, 2] is nan' for the first non-finite entry (or joint position out of the
-    core's range), or None."""
+    core's range), or None. (The extension ffwd._core words it the same way itself.)"""
+    q_max = _q_max()
     for name, a in zip(names, arrays):
         bad = ~np.isfinite(a)
         if name == "q":
-            bad |= np.abs(np.nan_to_num(a)) >= Q_MAX
+            bad |= np.abs(np.nan_to_num(a)) >= q_max
         if bad.any():
             idx = tuple(int(i) for i in np.argwhere(bad)[0])
             where = ", ".join(str(i) for i in idx)
             if np.isfinite(a[idx]):
-                return f"{name}[{where}] = {a[idx]:g} is out of range (|q| < {Q_MAX:g})"
+                return f"{name}[{where}] = {a[idx]:g} is out of range (|q| < {q_max:g})"
             return f"{name}[{where}] is {a[idx]}"
     return None
 
@@ -121,6 +135,98 @@ class _TwinCore:
         pass   # Dynamics replaces the robot (and so this core) instead
 
 
+_ND = np.ndarray
+_SIGNATURES = {   # the computations and the names of their arguments
+    "inverse_dynamics": ("q", "qd", "qdd"), "gravity": ("q",), "torque_parts": ("q", "qd", "qdd"),
+    "mass_matrix": ("q",), "forward_dynamics": ("q", "qd", "tau"), "tool_pose": ("q",),
+    "tool_jacobian": ("q",), "regressor": ("q", "qd", "qdd"),
+}
+
+
+def _fast3(one, shape, full, fn, names):
+    """A 3-argument computation: one float64 sample of shape (n,) straight to `one`,
+    anything else (and any error, to word it) through full(fn, names, values)."""
+    def call(a, b, c):
+        if (type(a) is _ND and type(b) is _ND and type(c) is _ND
+                and a.dtype is _F64 and b.dtype is _F64 and c.dtype is _F64
+                and a.shape == shape and b.shape == shape and c.shape == shape):
+            try:
+                return one(a, b, c)
+            except ValueError:
+                pass   # the full path words the error
+        return full(fn, names, (a, b, c))
+    return call
+
+
+def _fast1(one, shape, full, fn, names):
+    """The same for a computation of q alone."""
+    def call(a):
+        if type(a) is _ND and a.dtype is _F64 and a.shape == shape:
+            try:
+                return one(a)
+            except ValueError:
+                pass   # the full path words the error
+        return full(fn, names, (a,))
+    return call
+
+
+class _CheckedFront:
+    """The argument checks of ffwd.Dynamics made in Python, for the cores that do not make
+    them themselves: the twin (checked before computing) and the cffi NativeModel
+    (whose status codes are turned into the located message). The extension ffwd._core
+    makes the same checks in C++ and is called directly.
+
+    Each computation is an attribute. With a core that has a one-sample entry
+    (NativeModel.single), a single float64 sample of shape (n,) goes straight to it."""
+
+    def __init__(self, core, dof, check_first):
+        self._core = core
+        self._n = dof
+        self._check_first = check_first
+        single = getattr(core, "single", None)
+        for fn, names in _SIGNATURES.items():
+            if single is None:
+                def call(*values, fn=fn, names=names):
+                    return self._call(fn, names, values)
+            else:
+                fast = _fast3 if len(names) == 3 else _fast1
+                call = fast(single(fn), (dof,), self._call, fn, names)
+            setattr(self, fn, call)
+
+    def _call(self, method, names, values):
+        n = self._n
+        arrays = [_as_state(name, v, n) for name, v in zip(names, values)]
+        shape = arrays[0].shape
+        for name, a in zip(names[1:], arrays[1:]):
+            if a.shape != shape:
+                raise ValueError(f"{name}: expected shape {shape} like {names[0]}, "
+                                 f"got {a.shape}")
+        if self._check_first:
+            msg = _nonfinite_message(names, arrays)
+            if msg is not None:
+                raise ValueError(msg)
+        try:
+            return getattr(self._core, method)(*arrays)
+        except ValueError:
+            msg = _nonfinite_message(names, arrays)
+            if msg is not None:
+                raise ValueError(msg) from None
+            raise
+        except (FloatingPointError, ArithmeticError, np.linalg.LinAlgError) as exc:
+            msg = _nonfinite_message(names, arrays)
+            raise ValueError(msg or f"{method}: {exc}") from None
+
+
+class _Entries:
+    """The computations of one ffwd._core.Model as plain attributes (Model.entries():
+    fast-call functions that check their arguments in C++)."""
+    __slots__ = tuple(_SIGNATURES)
+
+    def __init__(self, entries):
+        for name in _SIGNATURES:
+            setattr(self, name, entries[name])
+
+
 class Dynamics:
     """Inverse/forward dynamics, mass matrix, tool kinematics and regressor of `robot`.
 
@@ -137,8 +243,9 @@ class Dynamics:
             raise ValueError("backend: expected 'c', 'twin', 'native' or the path of a libffwd "
                              f"shared library, got {backend!r}")
         self.backend = os.fspath(backend)
-        self._core = self._make_core(robot)
         self.dof = robot.dof
+        self._core = self._make_core(robot)
+        self._front = self._make_front()
 
     @property
     def robot(self):
@@ -165,72 +272,51 @@ class Dynamics:
         lib = native.load_library(None if b == "native" else b)
         return lib.model(robot)
 
+    def _make_front(self):
+        """What the methods call: ffwd._core.Model checks its arguments itself (C++);
+        the twin and cffi cores get the checks in Python."""
+        if self.backend == "c":
+            from . import _core
+            if getattr(_core, "CHECKS_ARGUMENTS", False):   # an older build does not
+                entries = getattr(self._core, "entries", None)
+                return self._core if entries is None else _Entries(entries())
+        return _CheckedFront(self._core, self.dof, check_first=self.backend == "twin")
+
     def __repr__(self):
         return f"Dynamics({self._robot.name!r}, {self.dof} joints, backend={self.backend!r})"
-
-    # -- argument checks and dispatch
-    def _call(self, method, names, values):
-        n = self.dof
-        arrays = [_as_state(name, v, n) for name, v in zip(names, values)]
-        shape = arrays[0].shape
-        for name, a in zip(names[1:], arrays[1:]):
-            if a.shape != shape:
-                raise ValueError(f"{name}: expected shape {shape} like {names[0]}, "
-                                 f"got {a.shape}")
-        try:
-            return getattr(self._core, method)(*arrays)
-        except ValueError:
-            msg = _nonfinite_message(names, arrays)
-            if msg is not None:
-                raise ValueError(msg) from None
-            raise
-        except (FloatingPointError, ArithmeticError, np.linalg.LinAlgError) as exc:
-            msg = _nonfinite_message(names, arrays)
-            raise ValueError(msg or f"{method}: {exc}") from None
-
-    def _call_checked(self, method, names, values):
-        """For backends that do not check finiteness themselves (the twin)."""
-        if self.backend == "twin":
-            n = self.dof
-            arrays = [_as_state(name, v, n) for name, v in zip(names, values)]
-            msg = _nonfinite_message(names, arrays)
-            if msg is not None:
-                raise ValueError(msg)
-            values = arrays
-        return self._call(method, names, values)
 
     # -- the computations
     def inverse_dynamics(self, q, qd, qdd):
         """Joint torques tau = M(q) qdd + C(q, qd) qd + g(q) + friction(qd)."""
-        return self._call_checked("inverse_dynamics", ("q", "qd", "qdd"), (q, qd, qdd))
+        return self._front.inverse_dynamics(q, qd, qdd)
 
     def gravity(self, q):
         """Gravity torques g(q)."""
-        return self._call_checked("gravity", ("q",), (q,))
+        return self._front.gravity(q)
 
     def torque_parts(self, q, qd, qdd):
         """TorqueParts(inertial, velocity, gravity, friction); they sum to inverse_dynamics."""
-        return TorqueParts(*self._call_checked("torque_parts", ("q", "qd", "qdd"), (q, qd, qdd)))
+        return TorqueParts._make(self._front.torque_parts(q, qd, qdd))
 
     def mass_matrix(self, q):
         """Joint-space mass matrix (n, n) (or (N, n, n)), armature on the diagonal."""
-        return self._call_checked("mass_matrix", ("q",), (q,))
+        return self._front.mass_matrix(q)
 
     def forward_dynamics(self, q, qd, tau):
         """Joint accelerations qdd from torques tau, friction included."""
-        return self._call_checked("forward_dynamics", ("q", "qd", "tau"), (q, qd, tau))
+        return self._front.forward_dynamics(q, qd, tau)
 
     def tool_pose(self, q):
         """4x4 homogeneous transform of the tool frame in the base frame."""
-        return self._call_checked("tool_pose", ("q",), (q,))
+        return self._front.tool_pose(q)
 
     def tool_jacobian(self, q):
         """(6, n) rows vx vy vz wx wy wz: tool-origin linear and angular velocity, base frame."""
-        return self._call_checked("tool_jacobian", ("q",), (q,))
+        return self._front.tool_jacobian(q)
 
     def regressor(self, q, qd, qdd):
         """(n, 13 n) Y with Y @ robot.parameter_vector() = inverse_dynamics(q, qd, qdd)."""
-        return self._call_checked("regressor", ("q", "qd", "qdd"), (q, qd, qdd))
+        return self._front.regressor(q, qd, qdd)
 
     def set_payload(self, mass, com=(0.0, 0.0, 0.0), inertia=None):
         """Swap the payload: mass (0 removes it), com in the tool frame, inertia about the
@@ -241,6 +327,7 @@ class Dynamics:
         p = robot.payload
         if self.backend == "twin":
             self._core = _TwinCore(robot)
+            self._front = self._make_front()
         else:
             self._core.set_payload(p.mass, np.asarray(p.com, dtype=float),
                                    payload_entries(p.inertia))

@@ -17,6 +17,7 @@ import importlib.util
 import os
 import re
 import sys
+import threading
 import warnings
 
 import numpy as np
@@ -256,8 +257,27 @@ class Library:
                 f"ffwd_real {self.real}>")
 
 
+# the computations: C function, argument count, output shapes (per sample) for dof n
+_FUNCTIONS = {
+    "inverse_dynamics": ("ffwd_inverse_dynamics", 3, lambda n: [(n,)]),
+    "gravity": ("ffwd_gravity_torque", 1, lambda n: [(n,)]),
+    "torque_parts": ("ffwd_torque_parts", 3, lambda n: [(n,)] * 4),
+    "mass_matrix": ("ffwd_mass_matrix", 1, lambda n: [(n, n)]),
+    "forward_dynamics": ("ffwd_forward_dynamics", 3, lambda n: [(n,)]),
+    "tool_pose": ("ffwd_tool_pose", 1, lambda n: [(4, 4)]),
+    "tool_jacobian": ("ffwd_tool_jacobian", 1, lambda n: [(6, n)]),
+    "regressor": ("ffwd_regressor", 3, lambda n: [(n, 13 * n)]),
+}
+
+
 class NativeModel:
-    """ffwd_model + ffwd_work + ffwd_payload_box in cffi memory; batches loop in Python."""
+    """ffwd_model + ffwd_work + ffwd_payload_box in cffi memory.
+
+    A single sample is copied into input buffers that stay wrapped for cffi, the C
+    function writes into a cached output buffer, and a copy of that is returned: one C
+    call and no ffi object made per call. A batch is one ffi.from_buffer per array and a
+    Python loop of C calls over pointers into them. Calls on one model take turns (a lock:
+    they share the work area and the buffers)."""
 
     def __init__(self, library, robot):
         from .pack import model_fields
@@ -295,64 +315,152 @@ class NativeModel:
         self._check(lib.ffwd_payload_init(self._box, m), "payload")
         self._check(lib.ffwd_work_use_payload(self._w, self._box), "payload")
         self.dof = f.dof
+        self._lock = threading.Lock()
+        self._ctype = ffi.typeof(library.real + "[]")
+        # single-sample input buffers, wrapped for cffi once
+        self._stage = np.zeros((3, f.dof), dtype=library.dtype)
+        self._stage_c = [ffi.from_buffer(self._ctype, row, require_writable=True)
+                         for row in self._stage]
+        self._single = {name: self._make_single(name) for name in _FUNCTIONS}
 
     def _check(self, status, fn, sample=None):
         if status != 0:
             where = "" if sample is None else f" (sample {sample})"
             raise ValueError(f"{fn}: {self.library.status_str(status)}{where}")
 
-    def _run(self, fn, cname, inputs, out_shapes):
-        ffi, lib = self.library.ffi, self.library.lib
+    def _make_single(self, fn):
+        """f(*inputs) for one sample: inputs of shape (n,) (any real dtype; not checked
+        here), outputs new float64 arrays."""
+        cname, k, shapes = _FUNCTIONS[fn]
+        ffi = self.library.ffi
+        func = getattr(self.library.lib, cname)
+        m, w, lock, check = self._m, self._w, self._lock, self._check
+        outs = [np.zeros(s, dtype=self.library.dtype) for s in shapes(self.dof)]
+        pouts = [ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
+        s0, s1, s2 = self._stage
+        p0, p1, p2 = self._stage_c
+        if self.library.dtype == np.float64:
+            def take(o):
+                return o.copy()
+        else:
+            def take(o):
+                return o.astype(np.float64)
+        if k == 3 and len(outs) == 1:
+            (o0,), (po,) = outs, pouts
+
+            def one(a, b, c):
+                with lock:
+                    s0[...] = a
+                    s1[...] = b
+                    s2[...] = c
+                    st = func(m, w, p0, p1, p2, po)
+                    r = take(o0)
+                if st:
+                    check(st, fn)
+                return r
+        elif k == 1 and len(outs) == 1:
+            (o0,), (po,) = outs, pouts
+
+            def one(a):
+                with lock:
+                    s0[...] = a
+                    st = func(m, w, p0, po)
+                    r = take(o0)
+                if st:
+                    check(st, fn)
+                return r
+        else:
+            def one(*inputs):
+                with lock:
+                    for row, a in zip(self._stage, inputs):
+                        row[...] = a
+                    st = func(m, w, *self._stage_c[:k], *pouts)
+                    r = tuple(take(o) for o in outs)
+                if st:
+                    check(st, fn)
+                return r
+        return one
+
+    def _run(self, fn, inputs):
+        cname, k, shapes = _FUNCTIONS[fn]
         n = self.dof
         dt = self.library.dtype
         arrays = [np.ascontiguousarray(a, dtype=dt) for a in inputs]
-        batched = arrays[0].ndim == 2
         for a in arrays:
             if a.shape[-1:] != (n,) or a.shape != arrays[0].shape or a.ndim not in (1, 2):
                 raise ValueError(f"{fn}: inputs must have shape (n,) or (N, n) with n = {n}")
-        N = arrays[0].shape[0] if batched else 1
-        outs = [np.zeros(((N,) if batched else ()) + s, dtype=dt) for s in out_shapes]
-        xs = [a.reshape(N, n) for a in arrays]
-        ys = [o.reshape(N, int(np.prod(s))) for o, s in zip(outs, out_shapes)]
-        func = getattr(lib, cname)
-        ctype = self.library.real + "[]"
-        for i in range(N):
-            args = [ffi.from_buffer(ctype, x[i]) for x in xs]
-            args += [ffi.from_buffer(ctype, y[i], require_writable=True) for y in ys]
-            self._check(func(self._m, self._w, *args), fn, i if batched else None)
+        if arrays[0].ndim == 1:
+            return self._single[fn](*arrays)
+        out_shapes = shapes(n)
+        N = arrays[0].shape[0]
+        outs = [np.zeros((N,) + s, dtype=dt) for s in out_shapes]
+        if N:
+            self._batch(fn, getattr(self.library.lib, cname), arrays, outs,
+                        [int(np.prod(s)) for s in out_shapes])
         outs = [o.astype(np.float64, copy=False) for o in outs]
         return outs[0] if len(outs) == 1 else tuple(outs)
 
+    def _batch(self, fn, func, arrays, outs, sizes):
+        """The C function over the rows of arrays into the rows of outs."""
+        ffi = self.library.ffi
+        ct, m, w, n, N = self._ctype, self._m, self._w, self.dof, arrays[0].shape[0]
+        xs = [ffi.from_buffer(ct, a) for a in arrays]
+        ys = [ffi.from_buffer(ct, o, require_writable=True) for o in outs]
+        st, i = 0, 0
+        with self._lock:
+            if len(xs) == 3 and len(ys) == 1:
+                (x0, x1, x2), (y0,), (sy,) = xs, ys, sizes
+                for i in range(N):
+                    st = func(m, w, x0 + i * n, x1 + i * n, x2 + i * n, y0 + i * sy)
+                    if st:
+                        break
+            elif len(xs) == 1 and len(ys) == 1:
+                (x0,), (y0,), (sy,) = xs, ys, sizes
+                for i in range(N):
+                    st = func(m, w, x0 + i * n, y0 + i * sy)
+                    if st:
+                        break
+            else:
+                for i in range(N):
+                    st = func(m, w, *(x + i * n for x in xs), *(y + i * s for y, s in zip(ys, sizes)))
+                    if st:
+                        break
+        self._check(st, fn, i)
+
     def inverse_dynamics(self, q, qd, qdd):
-        return self._run("inverse_dynamics", "ffwd_inverse_dynamics", (q, qd, qdd), [(self.dof,)])
+        return self._run("inverse_dynamics", (q, qd, qdd))
 
     def gravity(self, q):
-        return self._run("gravity", "ffwd_gravity_torque", (q,), [(self.dof,)])
+        return self._run("gravity", (q,))
 
     def torque_parts(self, q, qd, qdd):
-        n = self.dof
-        return self._run("torque_parts", "ffwd_torque_parts", (q, qd, qdd), [(n,)] * 4)
+        return self._run("torque_parts", (q, qd, qdd))
 
     def mass_matrix(self, q):
-        return self._run("mass_matrix", "ffwd_mass_matrix", (q,), [(self.dof, self.dof)])
+        return self._run("mass_matrix", (q,))
 
     def forward_dynamics(self, q, qd, tau):
-        return self._run("forward_dynamics", "ffwd_forward_dynamics", (q, qd, tau), [(self.dof,)])
+        return self._run("forward_dynamics", (q, qd, tau))
 
     def tool_pose(self, q):
-        return self._run("tool_pose", "ffwd_tool_pose", (q,), [(4, 4)])
+        return self._run("tool_pose", (q,))
 
     def tool_jacobian(self, q):
-        return self._run("tool_jacobian", "ffwd_tool_jacobian", (q,), [(6, self.dof)])
+        return self._run("tool_jacobian", (q,))
 
     def regressor(self, q, qd, qdd):
-        n = self.dof
-        return self._run("regressor", "ffwd_regressor", (q, qd, qdd), [(n, 13 * n)])
+        return self._run("regressor", (q, qd, qdd))
+
+    def single(self, fn):
+        """The one-sample entry of computation `fn` (e.g. "inverse_dynamics"): f(*inputs)
+        with inputs of shape (n,) already checked by the caller (ffwd.Dynamics)."""
+        return self._single[fn]
 
     def set_payload(self, mass, com, inertia):
         """mass, com (3,) in the tool frame, inertia about the com (xx, xy, xz, yy, yz, zz)."""
         ffi = self.library.ffi
         c = ffi.new(self.library.real + "[3]", [float(v) for v in com])
         I = ffi.new(self.library.real + "[6]", [float(v) for v in inertia])
-        self._check(self.library.lib.ffwd_payload_set(self._box, self._m, float(mass), c, I),
-                    "set_payload")
+        with self._lock:
+            st = self.library.lib.ffwd_payload_set(self._box, self._m, float(mass), c, I)
+        self._check(st, "set_payload")

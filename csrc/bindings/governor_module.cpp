@@ -19,24 +19,15 @@
 #include <vector>
 
 #include "ffwd.h"
+#include "model_fill.hpp"
 
 namespace py = pybind11;
-using real = ffwd_real;
-using Arr = py::array_t<real, py::array::c_style | py::array::forcecast>;
-using I32 = py::array_t<int32_t, py::array::c_style | py::array::forcecast>;
-using U32 = py::array_t<uint32_t, py::array::c_style | py::array::forcecast>;
-using ssize = py::ssize_t;
+using namespace ffwd_bind;
+using Arr = RealArr;
+using I32 = I32Arr;
+using U32 = U32Arr;
 
 namespace {
-
-[[noreturn]] void fail(const std::string &what) { throw py::value_error(what); }
-
-const real *take(const Arr &a, ssize count, const char *name) {
-    if (a.size() != count)
-        fail(std::string("model field ") + name + ": expected " + std::to_string(count) +
-             " values, got " + std::to_string(a.size()));
-    return a.data();
-}
 
 struct Gov {
     ffwd_model model;
@@ -61,55 +52,15 @@ std::unique_ptr<Gov> make_gov(uint32_t dof, const Arr &gravity, const I32 &type,
                               int32_t tool_parent, const Arr &tool_rot, const Arr &tool_pos,
                               const Arr &payload, real dt, real ds, uint32_t horizon,
                               real override_max, real rate_max, real rate_rate_max, real margin) {
-    if (dof < 1 || dof > FFWD_MAX_DOF)
-        fail("model: dof " + std::to_string(dof) + " is outside 1.." + std::to_string(FFWD_MAX_DOF));
     auto g = std::make_unique<Gov>();
-    std::memset(&g->model, 0, sizeof g->model);
     std::memset(&g->work, 0, sizeof g->work);
     std::memset(&g->gov, 0, sizeof g->gov);
-    ffwd_model &md = g->model;
-    const ssize n = dof;
-    md.dof = dof;
-    std::memcpy(md.gravity, take(gravity, 3, "gravity"), 3 * sizeof(real));
-    if (type.size() != n || parent.size() != n || has_limits.size() != n)
-        fail("model fields type/parent/has_limits: expected " + std::to_string(n) + " values");
-    const real *ro = take(rot, 9 * n, "rot");
-    const real *po = take(pos, 3 * n, "pos");
-    const real *ax = take(axis, 3 * n, "axis");
-    const real *in = take(inertia, 10 * n, "inertia");
-    const real *ar = take(armature, n, "armature");
-    const real *vi = take(viscous, n, "viscous");
-    const real *co = take(coulomb, n, "coulomb");
-    const real *cb = take(coulomb_band, n, "coulomb_band");
-    const real *li = take(limits, 6 * n, "limits");
-    for (ssize i = 0; i < n; ++i) {
-        ffwd_joint &j = md.joint[i];
-        j.type = type.data()[i];
-        j.parent = parent.data()[i];
-        std::memcpy(j.rot, ro + 9 * i, 9 * sizeof(real));
-        std::memcpy(j.pos, po + 3 * i, 3 * sizeof(real));
-        std::memcpy(j.axis, ax + 3 * i, 3 * sizeof(real));
-        std::memcpy(j.inertia, in + 10 * i, 10 * sizeof(real));
-        j.armature = ar[i];
-        j.viscous = vi[i];
-        j.coulomb = co[i];
-        j.coulomb_band = cb[i];
-        j.has_limits = has_limits.data()[i];
-        const real *l = li + 6 * i;
-        j.q_min = l[0];
-        j.q_max = l[1];
-        j.v_max = l[2];
-        j.a_max = l[3];
-        j.j_max = l[4];
-        j.tau_max = l[5];
-    }
-    md.tool_parent = tool_parent;
-    std::memcpy(md.tool_rot, take(tool_rot, 9, "tool_rot"), 9 * sizeof(real));
-    std::memcpy(md.tool_pos, take(tool_pos, 3, "tool_pos"), 3 * sizeof(real));
-    std::memcpy(md.payload, take(payload, 10, "payload"), 10 * sizeof(real));
+    fill_model(g->model, dof, gravity, type, parent, rot, pos, axis, inertia, armature, viscous,
+               coulomb, coulomb_band, has_limits, limits, tool_parent, tool_rot, tool_pos, payload);
     ffwd_status s = ffwd_work_init(&g->work, &g->model);
     if (s != FFWD_OK) fail(std::string("model: ") + ffwd_status_str(s));
     ffwd_gov_config cfg;
+    std::memset(&cfg, 0, sizeof cfg);  // a field not set below stays 0
     cfg.dt = dt;
     cfg.ds = ds;
     cfg.horizon = horizon;
@@ -253,11 +204,7 @@ PYBIND11_MODULE(_governor, mod) {
     mod.def("status_str", [](int s) { return std::string(ffwd_status_str(static_cast<ffwd_status>(s))); });
 
     py::class_<Gov>(mod, "Governor")
-        .def(py::init(&make_gov), py::arg("dof"), py::arg("gravity"), py::arg("type"),
-             py::arg("parent"), py::arg("rot"), py::arg("pos"), py::arg("axis"), py::arg("inertia"),
-             py::arg("armature"), py::arg("viscous"), py::arg("coulomb"), py::arg("coulomb_band"),
-             py::arg("has_limits"), py::arg("limits"), py::arg("tool_parent"), py::arg("tool_rot"),
-             py::arg("tool_pos"), py::arg("payload"), py::arg("dt"), py::arg("ds"),
+        .def(py::init(&make_gov), FFWD_MODEL_FIELD_ARGS, py::arg("dt"), py::arg("ds"),
              py::arg("horizon"), py::arg("override_max"), py::arg("rate_max"),
              py::arg("rate_rate_max"), py::arg("margin"))
         .def_readonly("init_status", &Gov::init_status)

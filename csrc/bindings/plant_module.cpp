@@ -1,7 +1,8 @@
 // plant_module.cpp - ffwd._plant: the C plant simulation (csrc/plant.c) for Python.
 //
-// Plant(fields, cfg, q0, qd0=None): fields is the dict of ffwd_model field values from
-// ffwd.sim.flatmodel.model_fields(robot); cfg the dict built by ffwd.sim.plant.Plant
+// Plant(fields, cfg, q0, qd0=None): fields is the dict of ffwd_model field values
+// ffwd.pack.model_fields(robot).as_dict() (filled by csrc/bindings/model_fill.hpp, shared
+// with ffwd._core and ffwd._governor); cfg the dict built by ffwd.sim.plant.Plant
 // (dt, integrator "euler"|"rk4", substeps, delay, saturate, counts_per_rev, noise_q,
 // noise_qd, seed). Errors from the core raise ValueError with the status name.
 #include <pybind11/numpy.h>
@@ -12,9 +13,8 @@
 #include <stdexcept>
 #include <string>
 
-extern "C" {
 #include "ffwd.h"
-}
+#include "model_fill.hpp"
 
 namespace py = pybind11;
 using vec = py::array_t<double, py::array::c_style | py::array::forcecast>;
@@ -48,46 +48,6 @@ template <typename T> T item(py::dict d, const char *key)
     return d[key].cast<T>();
 }
 
-void fill_model(ffwd_model &m, py::dict f)
-{
-    std::memset(&m, 0, sizeof m);
-    long dof = item<long>(f, "dof");
-    if (dof < 1 || dof > FFWD_MAX_DOF) {
-        throw py::value_error("model field 'dof': out of range");
-    }
-    m.dof = static_cast<uint32_t>(dof);
-    copy_into(m.gravity, f["gravity"], 3, "gravity");
-    py::list joints = f["joint"].cast<py::list>();
-    if (static_cast<long>(joints.size()) != dof) {
-        throw py::value_error("model field 'joint': need one entry per joint");
-    }
-    for (long i = 0; i < dof; ++i) {
-        py::dict j = joints[static_cast<size_t>(i)].cast<py::dict>();
-        ffwd_joint &J = m.joint[i];
-        J.type = item<int32_t>(j, "type");
-        J.parent = item<int32_t>(j, "parent");
-        copy_into(J.rot, j["rot"], 9, "rot");
-        copy_into(J.pos, j["pos"], 3, "pos");
-        copy_into(J.axis, j["axis"], 3, "axis");
-        copy_into(J.inertia, j["inertia"], 10, "inertia");
-        J.armature = item<double>(j, "armature");
-        J.viscous = item<double>(j, "viscous");
-        J.coulomb = item<double>(j, "coulomb");
-        J.coulomb_band = item<double>(j, "coulomb_band");
-        J.has_limits = item<uint32_t>(j, "has_limits");
-        J.q_min = item<double>(j, "q_min");
-        J.q_max = item<double>(j, "q_max");
-        J.v_max = item<double>(j, "v_max");
-        J.a_max = item<double>(j, "a_max");
-        J.j_max = item<double>(j, "j_max");
-        J.tau_max = item<double>(j, "tau_max");
-    }
-    m.tool_parent = item<int32_t>(f, "tool_parent");
-    copy_into(m.tool_rot, f["tool_rot"], 9, "tool_rot");
-    copy_into(m.tool_pos, f["tool_pos"], 3, "tool_pos");
-    copy_into(m.payload, f["payload"], 10, "payload");
-}
-
 struct Plant {
     ffwd_model model;
     ffwd_plant plant;
@@ -95,7 +55,7 @@ struct Plant {
 
     Plant(py::dict fields, py::dict cfg, vec q0, py::object qd0)
     {
-        fill_model(model, fields);
+        ffwd_bind::fill_model(model, fields);
         check(ffwd_model_check(&model), "plant model");
         n = model.dof;
         ffwd_plant_config c;

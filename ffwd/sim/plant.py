@@ -186,8 +186,8 @@ class Plant:
                                   "available; build the package (make install) or use "
                                   "backend='twin'")
             from .. import _plant
-            from .flatmodel import model_fields
-            self._impl = _plant.Plant(model_fields(robot), self.cfg, q0,
+            from ..pack import model_fields
+            self._impl = _plant.Plant(model_fields(robot).as_dict(), self.cfg, q0,
                                       None if qd0 is None else qd0)
         elif backend == "twin":
             self._impl = _TwinPlant(robot, self.cfg, q0, qd0)
