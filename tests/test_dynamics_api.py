@@ -132,3 +132,37 @@ def test_example_robots_agree_across_backends(path, core, shipped_library):
     for b in ("c", "native"):
         got = Dynamics(robot, b).inverse_dynamics(q, qd, qdd)
         np.testing.assert_allclose(got, want, rtol=1e-9, atol=1e-9 * (1 + np.abs(want).max()))
+
+
+def test_q_bound_comes_from_the_core_and_is_enforced(robot, core):
+    # the bound is the C core's FFWD_Q_MAX_ (2^20 rad in the double build, DESIGN rule);
+    # Dynamics takes it from the extension and every backend refuses |q| at the bound
+    from ffwd import dynamics as dmod
+    assert core.Q_MAX == 2.0 ** 20
+    assert dmod._q_max() == core.Q_MAX
+    n = robot.dof
+    z = np.zeros(n)
+    for backend in ("c", "twin"):
+        d = Dynamics(robot, backend)
+        q = np.zeros(n)
+        q[2] = core.Q_MAX
+        with pytest.raises(ValueError, match=r"q\[2\]"):
+            d.inverse_dynamics(q, z, z)
+        q[2] = np.nextafter(core.Q_MAX, 0.0)
+        assert np.all(np.isfinite(d.inverse_dynamics(q, z, z)))
+
+
+def test_fast_entries_equal_the_model_methods(robot, core):
+    # Dynamics(robot, "c") calls the plain functions of Model.entries(); they must give
+    # exactly what the pybind11 methods give, single sample and batch
+    d = Dynamics(robot, "c")
+    rng = np.random.default_rng(7)
+    n = robot.dof
+    q, qd, qdd = rng.uniform(-1, 1, (3, 4, n))
+    ref = Dynamics(robot, "twin")
+    for i in range(4):
+        np.testing.assert_allclose(d.inverse_dynamics(q[i], qd[i], qdd[i]),
+                                   ref.inverse_dynamics(q[i], qd[i], qdd[i]), atol=1e-9)
+    batch = d.inverse_dynamics(q, qd, qdd)
+    single = np.array([d.inverse_dynamics(q[i], qd[i], qdd[i]) for i in range(4)])
+    assert np.array_equal(batch, single)
