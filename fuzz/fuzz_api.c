@@ -25,6 +25,7 @@
 #include <string.h>
 
 #include "ffwd.h"
+#include "programs/model_build.h"
 
 #define NMAX FFWD_MAX_DOF
 
@@ -80,10 +81,8 @@ static void fail(const char *what, const char *fn, int detail)
 
 static void rot_rpy(double r, double p, double y, ffwd_real R[9])
 {
-    double cr = cos(r), sr = sin(r), cp = cos(p), sp = sin(p), cy = cos(y), sy = sin(y);
-    double M[9] = {cy * cp, cy * sp * sr - sy * cr, cy * sp * cr + sy * sr,
-                   sy * cp, sy * sp * sr + cy * cr, sy * sp * cr - cy * sr,
-                   -sp, cp * sr, cp * cr};
+    double M[9];
+    mb_rpy(r, p, y, M);
     for (int k = 0; k < 9; ++k) R[k] = (ffwd_real)M[k];
 }
 
@@ -98,7 +97,7 @@ static void build_model(bytes *b, ffwd_model *m)
     for (uint32_t i = 0; i < dof; ++i) {
         ffwd_joint *j = &m->joint[i];
         uint8_t flags = u8(b);
-        double ax[3], n2 = 0.0, mass, c[3], d[3], lo, hi, Q[9], cc;
+        double ax[3], n2 = 0.0, mass, c[3], d[3], lo, hi, Q[9];
         ffwd_real Qr[9];
         j->type = (flags & 1u) ? FFWD_PRISMATIC : FFWD_REVOLUTE;
         j->parent = (flags & 2u) && i > 0 ? (int32_t)(u8(b) % i) : (int32_t)i - 1;
@@ -123,23 +122,7 @@ static void build_model(bytes *b, ffwd_model *m)
         d[2] = lo + (hi - lo) * range(b, 0.05, 0.95);
         rot_rpy(range(b, -3.2, 3.2), range(b, -1.5, 1.5), range(b, -3.2, 3.2), Qr);
         for (int k = 0; k < 9; ++k) Q[k] = (double)Qr[k];
-        cc = c[0] * c[0] + c[1] * c[1] + c[2] * c[2];
-        {
-            double I[9];
-            for (int r = 0; r < 3; ++r)
-                for (int s = 0; s < 3; ++s)
-                    I[3 * r + s] = Q[3 * r] * d[0] * Q[3 * s] + Q[3 * r + 1] * d[1] * Q[3 * s + 1]
-                                 + Q[3 * r + 2] * d[2] * Q[3 * s + 2]
-                                 + mass * ((r == s ? cc : 0.0) - c[r] * c[s]);
-            j->inertia[0] = (ffwd_real)mass;
-            for (int k = 0; k < 3; ++k) j->inertia[1 + k] = (ffwd_real)(mass * c[k]);
-            j->inertia[4] = (ffwd_real)I[0];
-            j->inertia[5] = (ffwd_real)I[1];
-            j->inertia[6] = (ffwd_real)I[2];
-            j->inertia[7] = (ffwd_real)I[4];
-            j->inertia[8] = (ffwd_real)I[5];
-            j->inertia[9] = (ffwd_real)I[8];
-        }
+        mb_link_inertia(j, mass, c, d, Q);
         j->armature = (ffwd_real)(flags & 4u ? range(b, 0.0, 2.0) : 0.0);
         j->viscous = (ffwd_real)range(b, 0.0, 20.0);
         j->coulomb = (ffwd_real)(flags & 8u ? range(b, 0.0, 30.0) : 0.0);

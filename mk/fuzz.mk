@@ -29,7 +29,7 @@ fuzz-tools: $(INSTALL_STAMP)
 	@$(VPY) -c 'import atheris' 2>/dev/null || $(VPY) -m pip install --quiet atheris \
 	  || echo "atheris did not install: the loaders get the plain mutation fuzzer"
 
-$(FUZZ_DIR)/fuzz_api: fuzz/fuzz_api.c $(wildcard csrc/*.c csrc/*.h csrc/include/*.h) | fuzz-tools
+$(FUZZ_DIR)/fuzz_api: fuzz/fuzz_api.c $(wildcard csrc/*.c csrc/*.h csrc/include/*.h csrc/programs/model_build.h) | fuzz-tools
 	@mkdir -p $(FUZZ_DIR)
 	$(FUZZ_CC) $(FUZZ_CFLAGS) fuzz/fuzz_api.c csrc/*.c -o $@
 

@@ -28,6 +28,7 @@
 #include <time.h>
 
 #include "ffwd.h"
+#include "model_build.h"
 
 #ifdef FFWD_BENCH_EXTERNAL
 const ffwd_model *ffwd_bench_external_model(void);
@@ -51,15 +52,6 @@ static double uniform(uint64_t *s, double lo, double hi)
     return lo + (hi - lo) * ((double)(r >> 11) * (1.0 / 9007199254740992.0));
 }
 
-static void rpy_matrix(double r, double p, double y, double R[9])
-{
-    double cr = cos(r), sr = sin(r), cp = cos(p), sp = sin(p), cy = cos(y), sy = sin(y);
-    /* R = Rz(y) Ry(p) Rx(r), row-major */
-    R[0] = cy * cp; R[1] = cy * sp * sr - sy * cr; R[2] = cy * sp * cr + sy * sr;
-    R[3] = sy * cp; R[4] = sy * sp * sr + cy * cr; R[5] = sy * sp * cr - cy * sr;
-    R[6] = -sp;     R[7] = cp * sr;                R[8] = cp * cr;
-}
-
 static void random_chain(ffwd_model *m, uint32_t dof, uint64_t seed)
 {
     uint64_t s = seed * 0x9E3779B97F4A7C15ull + 1u;
@@ -68,10 +60,10 @@ static void random_chain(ffwd_model *m, uint32_t dof, uint64_t seed)
     m->gravity[2] = (ffwd_real)-9.81;
     for (uint32_t i = 0; i < dof; ++i) {
         ffwd_joint *j = &m->joint[i];
-        double R[9], t[3], n = 0.0, len, mass, c[3], d[3], Q[9], Ic[9];
+        double R[9], t[3], n = 0.0, len, mass, c[3], d[3], Q[9];
         j->type = FFWD_REVOLUTE;
         j->parent = (int32_t)i - 1;
-        rpy_matrix(uniform(&s, -3.14159, 3.14159), uniform(&s, -3.14159, 3.14159),
+        mb_rpy(uniform(&s, -3.14159, 3.14159), uniform(&s, -3.14159, 3.14159),
                    uniform(&s, -3.14159, 3.14159), R);
         for (int k = 0; k < 3; ++k) {
             t[k] = uniform(&s, -1.0, 1.0);
@@ -90,26 +82,8 @@ static void random_chain(ffwd_model *m, uint32_t dof, uint64_t seed)
             double lo = fabs(d[0] - d[1]), hi = d[0] + d[1];
             d[2] = lo + (hi - lo) * uniform(&s, 0.1, 0.9);
         }
-        rpy_matrix(uniform(&s, -3.0, 3.0), uniform(&s, -1.5, 1.5), uniform(&s, -3.0, 3.0), Q);
-        for (int a = 0; a < 3; ++a)
-            for (int b = 0; b < 3; ++b)
-                Ic[3 * a + b] = Q[3 * a + 0] * d[0] * Q[3 * b + 0] + Q[3 * a + 1] * d[1] * Q[3 * b + 1]
-                              + Q[3 * a + 2] * d[2] * Q[3 * b + 2];
-        {
-            double cc = c[0] * c[0] + c[1] * c[1] + c[2] * c[2];
-            double I[9];
-            for (int a = 0; a < 3; ++a)
-                for (int b = 0; b < 3; ++b)
-                    I[3 * a + b] = Ic[3 * a + b] + mass * ((a == b ? cc : 0.0) - c[a] * c[b]);
-            j->inertia[0] = (ffwd_real)mass;
-            for (int k = 0; k < 3; ++k) j->inertia[1 + k] = (ffwd_real)(mass * c[k]);
-            j->inertia[4] = (ffwd_real)I[0];
-            j->inertia[5] = (ffwd_real)I[1];
-            j->inertia[6] = (ffwd_real)I[2];
-            j->inertia[7] = (ffwd_real)I[4];
-            j->inertia[8] = (ffwd_real)I[5];
-            j->inertia[9] = (ffwd_real)I[8];
-        }
+        mb_rpy(uniform(&s, -3.0, 3.0), uniform(&s, -1.5, 1.5), uniform(&s, -3.0, 3.0), Q);
+        mb_link_inertia(j, mass, c, d, Q);
         j->armature = (ffwd_real)uniform(&s, 0.05, 1.0);
         j->viscous = (ffwd_real)uniform(&s, 0.1, 2.0);
         j->coulomb = (ffwd_real)uniform(&s, 0.5, 5.0);
