@@ -375,6 +375,19 @@ PyMethodDef ENTRY_DEFS[N_FN] = {
 };
 #undef FFWD_ENTRY
 
+// ---- the Model methods: the same computations through pybind11's dispatch
+template <int F>
+py::object method1(Model &m, py::handle a0) {
+    PyObject *a[1] = {a0.ptr()};
+    return compute(m, static_cast<Fn>(F), a);
+}
+
+template <int F>
+py::object method3(Model &m, py::handle a0, py::handle a1, py::handle a2) {
+    PyObject *a[3] = {a0.ptr(), a1.ptr(), a2.ptr()};
+    return compute(m, static_cast<Fn>(F), a);
+}
+
 py::dict entries(py::object self) {
     Model &m = self.cast<Model &>();
     PyObject *cap = PyCapsule_New(&m, "ffwd._core.Model", [](PyObject *c) {
@@ -413,38 +426,14 @@ PYBIND11_MODULE(_core, mod) {
     py::class_<Model>(mod, "Model")
         .def(py::init(&make_model), FFWD_MODEL_FIELD_ARGS)
         .def_property_readonly("dof", [](const Model &m) { return m.model.dof; })
-        .def("inverse_dynamics", [](Model &m, py::handle q, py::handle qd, py::handle qdd) {
-            PyObject *a[3] = {q.ptr(), qd.ptr(), qdd.ptr()};
-            return compute(m, ID, a);
-        })
-        .def("gravity", [](Model &m, py::handle q) {
-            PyObject *a[1] = {q.ptr()};
-            return compute(m, GRAVITY, a);
-        })
-        .def("torque_parts", [](Model &m, py::handle q, py::handle qd, py::handle qdd) {
-            PyObject *a[3] = {q.ptr(), qd.ptr(), qdd.ptr()};
-            return compute(m, PARTS, a);
-        })
-        .def("mass_matrix", [](Model &m, py::handle q) {
-            PyObject *a[1] = {q.ptr()};
-            return compute(m, MASS, a);
-        })
-        .def("forward_dynamics", [](Model &m, py::handle q, py::handle qd, py::handle tau) {
-            PyObject *a[3] = {q.ptr(), qd.ptr(), tau.ptr()};
-            return compute(m, FD, a);
-        })
-        .def("tool_pose", [](Model &m, py::handle q) {
-            PyObject *a[1] = {q.ptr()};
-            return compute(m, POSE, a);
-        })
-        .def("tool_jacobian", [](Model &m, py::handle q) {
-            PyObject *a[1] = {q.ptr()};
-            return compute(m, JACOBIAN, a);
-        })
-        .def("regressor", [](Model &m, py::handle q, py::handle qd, py::handle qdd) {
-            PyObject *a[3] = {q.ptr(), qd.ptr(), qdd.ptr()};
-            return compute(m, REGRESSOR, a);
-        })
+        .def("inverse_dynamics", &method3<ID>)
+        .def("gravity", &method1<GRAVITY>)
+        .def("torque_parts", &method3<PARTS>)
+        .def("mass_matrix", &method1<MASS>)
+        .def("forward_dynamics", &method3<FD>)
+        .def("tool_pose", &method1<POSE>)
+        .def("tool_jacobian", &method1<JACOBIAN>)
+        .def("regressor", &method3<REGRESSOR>)
         .def("entries", &entries,
              "dict: computation name -> a plain function of the arguments alone, bound to this "
              "Model (the same checks and results as the methods, less call overhead)")
