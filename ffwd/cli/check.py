@@ -5,6 +5,7 @@ import warnings
 import numpy as np
 
 from ..errors import ModelWarning
+from ._common import MODEL_HELP, load_model
 
 
 def register(sub):
@@ -13,7 +14,7 @@ def register(sub):
         description="Load a robot model (.toml, .dh.csv or .urdf), validate it and print a "
                     "short description with any warnings. Exit 0 if valid; 1 with --strict "
                     "when there are warnings; 2 with a one-line located error if invalid.")
-    p.add_argument("model", help="robot model file (.toml, .dh.csv or .urdf)")
+    p.add_argument("model", help=MODEL_HELP)
     p.add_argument("--json", metavar="OUT", help="also write the summary as JSON to OUT")
     p.add_argument("--strict", action="store_true", help="treat warnings as failures (exit 1)")
     p.set_defaults(func=run)
@@ -45,10 +46,9 @@ def summary(robot, warning_lines):
 
 
 def run(args):
-    from ..formats import load
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", ModelWarning)
-        robot = load(args.model)
+        robot = load_model(args.model)
     own = robot.warnings()
     load_lines = [str(w.message) for w in caught if issubclass(w.category, ModelWarning)]
     # load-time warnings (axis normalised, ...); the payload one is in `own` already

@@ -2,7 +2,7 @@
 import os
 import shlex
 
-from ._common import load_model
+from ._common import MODEL_HELP, load_model
 
 
 def register(sub):
@@ -11,7 +11,7 @@ def register(sub):
                                    "ffwd_model with every field (full-precision literals), and "
                                    "an example main.c that prints the inverse-dynamics torques "
                                    "for a state given on its command line.")
-    p.add_argument("model", help="robot model (.toml, DH table or .urdf)")
+    p.add_argument("model", help=MODEL_HELP)
     p.add_argument("--out", required=True, help="output folder")
     p.add_argument("--name", default=None,
                    help="C name prefix (default: the robot's name as a C identifier)")

@@ -18,6 +18,8 @@ import shutil
 import subprocess
 import sys
 
+from ._common import load_model
+
 ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 DEFAULT_MODEL = os.path.join(ROOT, "examples", "robots", "six_axis.toml")
 
@@ -90,11 +92,9 @@ def markdown(robot, data, how, png):
 
 
 def run(args):
-    from ..formats import load
-
     if args.iterations < 1:
         raise ValueError(f"--iterations: must be >= 1, got {args.iterations}")
-    robot = load(args.model)
+    robot = load_model(args.model)
     out = args.out
     os.makedirs(out, exist_ok=True)
     build = args.build or os.path.join(out, "build")
