@@ -52,3 +52,24 @@ def test_bad_input_is_one_line(tmp_path, move, capsys):
                  "--out", str(tmp_path)]) == 2
     assert "horizon" in capsys.readouterr().err
     assert main(["scale", MODEL, str(tmp_path / "missing.csv"), "--out", str(tmp_path)]) == 2
+
+
+@pytest.mark.parametrize("rows, words", [
+    ("0,1\n0.5,nan\n", ["prof.csv", "row 3", "finite"]),
+    ("0,1\n0.5,1\n0.4,1\n", ["prof.csv", "row 4", "time 0.4 does not increase"]),
+    ("0,1\n0.5,-1\n", ["prof.csv", "row 3", "override >= 0"]),
+])
+def test_bad_override_profile_rows_are_located(tmp_path, move, capsys, rows, words):
+    prof = tmp_path / "prof.csv"
+    prof.write_text("t,override\n" + rows)
+    assert main(["govern", MODEL, str(move), "--override", str(prof), "--out", str(tmp_path)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert "\n" not in err
+    for w in words:
+        assert w in err, (w, err)
+
+
+def test_bad_step_times_are_located(tmp_path, move, capsys):
+    assert main(["govern", MODEL, str(move), "--step", "0:1,0:0", "--out", str(tmp_path)]) == 2
+    err = capsys.readouterr().err
+    assert "--step: item 2 '0:0'" in err and "does not increase" in err
