@@ -18,6 +18,7 @@
 #define CAP FR(1e15)
 #define ALPHA_TOL FR(1e-12)
 #define REST_TOL FR(1e-12)
+#define GOV_BISECT 4u   /* halvings between the stored plan's u and the step's */
 
 #if defined(__GNUC__) || defined(__clang__)
 #ifdef FFWD_SINGLE
@@ -135,6 +136,10 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->sigma = FR(0);
     g->kappa = FR(0);
     g->u = FR(0);
+    g->plan = FFWD_GOV_PLAN_REST;
+    ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
+    g->plan_D = FR(0);
+    g->plan_Vp = FR(0);
     /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
     reach = cfg->override_max * cfg->dt + FR(0.5) * cfg->rate_max * cfg->dt * cfg->dt;
     g->pieces = 1;
@@ -364,6 +369,24 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     }
     sl->x_max = X;
     sl->x_safe = FR(0);
+    sl->x_try = FR(0);              /* the fastest-stop plan's x here (0: at rest) */
+    sl->x_plan = FR(0);
+    /* for plan D: its ramp rate may use half of what the jerk limits allow for this q'
+     * (vp); the deceleration every limit allows at rest (dr) */
+    sl->vp = BIG;
+    sl->dr = BIG;
+    for (j = 0; j < n; j++) {
+        const ffwd_joint *J = &m->joint[j];
+        ffwd_real d = absr(sl->dq[j]);
+        if ((J->has_limits & FFWD_LIM_JERK) && d > FR(0))
+            sl->vp = minr(sl->vp, FR(0.5) * keep * J->j_max / d);
+        if (absr(sl->a[j]) > FR(0)) {
+            ffwd_real room = keep * J->tau_max - absr(sl->c[j]) - J->coulomb;
+            sl->dr = minr(sl->dr, maxr(room, FR(0)) / absr(sl->a[j]));
+        }
+        if (d > FR(0))
+            sl->dr = minr(sl->dr, keep * J->a_max / d);
+    }
     g->count++;
     g->pushed++;
     g->dirty = 1;
@@ -431,8 +454,9 @@ static void hermite_basis(ffwd_real th, ffwd_real H[4][6])
     H[3][5] = FR(60) - FR(360) * th + FR(360) * t2;
 }
 
-/* Largest u whose constant-u motion over this cycle stays under the safe curve. */
-static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x)
+/* Largest u whose constant-u motion over this cycle stays under the safe curve (plan:
+ * under the stored fastest-stop plan's curve). */
+static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x, int plan)
 {
     const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds;
     const ffwd_real e0 = g->kappa * dt, e1 = FR(0.5) * dt * dt;
@@ -441,7 +465,8 @@ static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x)
     for (j = 0; j < g->pieces; j++) {
         if (j + 1u < g->count) {
             ffwd_real Sj = (ffwd_real)j * ds;
-            ffwd_real Xa = slot_at(g, j)->x_safe, Xb = slot_at(g, j + 1u)->x_safe;
+            const ffwd_gov_slot *sa = slot_at(g, j), *sb = slot_at(g, j + 1u);
+            ffwd_real Xa = plan ? sa->x_plan : sa->x_safe, Xb = plan ? sb->x_plan : sb->x_safe;
             ffwd_real mj = (Xb - Xa) / ds;
             ffwd_real A = FR(2) * e1;
             ffwd_real B = FR(2) * e0 - mj * e1;
@@ -463,6 +488,293 @@ static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x)
     return cap;
 }
 
+
+/* ---- (b) with (c): the braking plans that vouch for a step ---- */
+
+/* The smallest admissible u at sample sl for x (twice the margin). */
+static ffwd_real brake_u(const ffwd_governor *g, const ffwd_gov_slot *sl, ffwd_real x)
+{
+    ffwd_real k = sqrt0(x), L = -BIG;
+    uint32_t p;
+    for (p = 0; p < sl->ncols; p++)
+        L = maxr(L, ((sl->bA[p] - FR(1)) * x + sl->bB[p] * k + sl->bC[p]) / (FR(2) * g->cfg.ds));
+    return L;
+}
+
+/* The joint jerk limits (twice the margin) at sample sl for x, u and du/dt = v. */
+static int jerk_ok(const ffwd_governor *g, const ffwd_gov_slot *sl, ffwd_real x, ffwd_real u,
+                   ffwd_real v)
+{
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
+    ffwd_real k = sqrt0(x);
+    uint32_t j;
+    for (j = 0; j < g->model->dof; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        if (J->has_limits & FFWD_LIM_JERK) {
+            ffwd_real jj = sl->dddq[j] * x * k + FR(3) * sl->ddq[j] * k * u + sl->dq[j] * v;
+            if (absr(jj) > keep2 * J->j_max)
+                return 0;
+        }
+    }
+    return 1;
+}
+
+/* Plan P: brake at each sample's smallest admissible u (the fastest stop, what the safe
+ * curve assumes) from (sig, kap) after a cycle at u; the changes of u at the samples and
+ * the last one, to rest, must each fit in one cycle's rate of rate h. Writes the plan's
+ * x per sample into x_try (0 after rest); 1 if it holds. */
+static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real h)
+{
+    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
+    const uint32_t last = g->count - 1u;
+    uint32_t i = (uint32_t)(sig / ds), k;
+    ffwd_real x = kap * kap, pos = sig, up = u;
+    int first = 1;
+    if (i >= last)
+        return 0;
+    for (k = 0; k < g->count; k++)
+        slot_at(g, k)->x_try = FR(0);
+    for (;;) {
+        ffwd_gov_slot *s0 = slot_at(g, i), *s1 = slot_at(g, i + 1u);
+        ffwd_real d = (ffwd_real)(i + 1u) * ds - pos, L, xe;
+        L = brake_u(g, s0, x);
+        if (first)
+            L = maxr(L, brake_u(g, s1, x));
+        L = maxr(L, brake_u(g, s1, maxr(x + FR(2) * d * L, FR(0))));
+        xe = x + FR(2) * d * L;
+        if (absr(L - up) > h || !jerk_ok(g, s0, x, L, (L - up) / dt)
+            || !jerk_ok(g, s0, x, up, (L - up) / dt))
+            return 0;
+        s0->x_try = x - FR(2) * L * (pos - (ffwd_real)i * ds);
+        if (xe <= FR(0))
+            return absr(L) <= h;
+        if (i + 1u >= last || xe > s1->x_max || brake_u(g, s1, xe) > L || !jerk_ok(g, s1, xe, L, FR(0)))
+            return 0;
+        s1->x_try = xe;
+        x = xe;
+        up = L;
+        pos = (ffwd_real)(i + 1u) * ds;
+        first = 0;
+        i++;
+    }
+}
+
+/* kappa used up while u < 0 steps back to 0 by Vp dt per cycle. */
+static ffwd_real ramp_need(const ffwd_governor *g, ffwd_real u, ffwd_real Vp)
+{
+    const ffwd_real dt = g->cfg.dt, h = Vp * dt;
+    ffwd_real mm = FR(0);
+    if (u < FR(0)) {
+        mm = minr(-u / h, FR(1e9));
+        mm = (ffwd_real)(uint32_t)mm;     /* floor, for 0 <= mm <= 1e9 */
+    }
+    return dt * (mm * (-u) - h * mm * (mm + FR(1)) / FR(2));
+}
+
+/* Plan D's u for the next cycle: u ramps at -Vp to -D, holds, and ramps back at +Vp to
+ * reach rest (u changes by at most Vp dt a cycle). */
+static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u, ffwd_real D,
+                             ffwd_real Vp)
+{
+    const ffwd_real dt = g->cfg.dt, h = Vp * dt;
+    ffwd_real d, kn;
+    if (kap <= FR(0))
+        return FR(0);
+    if (kap <= h * dt && kap <= D * dt && -kap / dt >= u - h)
+        return -kap / dt;                       /* rest at the end of this cycle */
+    d = u > -D ? maxr(u - h, -D) : minr(u + h, -D);
+    kn = kap + d * dt;
+    if (kn > FR(0) && kn >= ramp_need(g, d, Vp))
+        return d;
+    return minr(u + h, FR(0));
+}
+
+/* Every limit of sample sl (twice the margin) over the box b of states
+ * (kappa low, high, u low, high). */
+static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_real *b)
+{
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
+    uint32_t j, iu, ik;
+    if (b[1] * b[1] > sl->x_max)
+        return 0;
+    for (j = 0; j < g->model->dof; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        const ffwd_real dq = sl->dq[j], ddq = sl->ddq[j];
+        const ffwd_real fc = J->coulomb * sgnr(dq);
+        const ffwd_real tm = keep2 * J->tau_max, am = keep2 * J->a_max, gv = J->viscous * dq;
+        ffwd_real ks[3];
+        uint32_t nk = 2;
+        if (absr(dq) * b[1] > keep2 * J->v_max)
+            return 0;
+        ks[0] = b[0];
+        ks[1] = b[1];
+        if (sl->b[j] < FR(0) && b[0] < -gv / (FR(2) * sl->b[j]) && -gv / (FR(2) * sl->b[j]) < b[1])
+            ks[nk++] = -gv / (FR(2) * sl->b[j]);    /* interior maximum of b x + gv kappa */
+        for (iu = 0; iu < 2u; iu++) {
+            const ffwd_real uu = b[2 + iu];
+            for (ik = 0; ik < nk; ik++) {
+                const ffwd_real k = ks[ik], x = k * k;
+                const ffwd_real tau = sl->a[j] * uu + sl->b[j] * x + gv * k + sl->c[j];
+                if (tau + maxr(fc, FR(0)) > tm || tau + minr(fc, FR(0)) < -tm)
+                    return 0;
+                if (absr(ddq * x + dq * uu) > am)
+                    return 0;
+            }
+        }
+    }
+    return 1;
+}
+
+/* Does plan D from (sig, kap, u) meet every limit and rest inside the window? Its
+ * cycles are simulated; per window segment the box of its cycle states is tested at
+ * both ends (rows interpolate linearly between samples); the joint jerk per cycle,
+ * from g->qdd0 (the command before the plan) on, with q' and q'' interpolated
+ * linearly between samples. */
+static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
+                      ffwd_real Vp)
+{
+    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt, keep2 = FR(1) - FR(2) * g->cfg.margin;
+    const uint32_t nseg = g->count - 1u, n = g->model->dof;
+    const ffwd_real send = (ffwd_real)nseg * ds;
+    ffwd_real s = sig, k = kap, uu = u;
+    uint32_t cycles = 0, i, j;
+    for (i = 0; i < nseg; i++)
+        g->box_used[i] = 0;
+    for (j = 0; j < n; j++)
+        g->pq[j] = g->qdd0[j];
+    while (k > FR(0)) {
+        ffwd_real un, th, *b;
+        const ffwd_gov_slot *sa, *sb;
+        cycles++;
+        if (cycles > (uint32_t)FFWD_GOV_PLAN_CYCLES || s > send)
+            return 0;
+        un = plan_action(g, k, uu, D, Vp);
+        i = (uint32_t)(s / ds);
+        if (i > nseg - 1u)
+            i = nseg - 1u;
+        th = s / ds - (ffwd_real)i;
+        sa = slot_at(g, i);
+        sb = slot_at(g, i + 1u);
+        for (j = 0; j < n; j++) {
+            const ffwd_joint *J = &g->model->joint[j];
+            if (J->has_limits & FFWD_LIM_JERK) {
+                ffwd_real dq = sa->dq[j] + th * (sb->dq[j] - sa->dq[j]);
+                ffwd_real ddq = sa->ddq[j] + th * (sb->ddq[j] - sa->ddq[j]);
+                ffwd_real qn = ddq * k * k + dq * un;
+                if (absr(qn - g->pq[j]) > keep2 * J->j_max * dt)
+                    return 0;
+                g->pq[j] = qn;
+            }
+        }
+        b = g->box[i];
+        /* the box of kappa and u (this cycle's and the one before) */
+        if (!g->box_used[i]) {
+            g->box_used[i] = 1;
+            b[0] = b[1] = k;
+            b[2] = minr(uu, un);
+            b[3] = maxr(uu, un);
+        } else {
+            b[0] = minr(b[0], k);
+            b[1] = maxr(b[1], k);
+            b[2] = minr(b[2], minr(uu, un));
+            b[3] = maxr(b[3], maxr(uu, un));
+        }
+        if (un < FR(0) && k + un * dt <= FR(0)) {
+            if (-un > Vp * dt * (FR(1) + FR(1e-9)))   /* u drops to 0 at rest: one cycle's change */
+                return 0;
+            s += k * k / (FR(-2) * un);
+            k = FR(0);
+            uu = FR(0);
+        } else {
+            s += k * dt + FR(0.5) * dt * dt * un;
+            k += un * dt;
+            uu = un;
+        }
+    }
+    if (s > send)
+        return 0;
+    for (j = 0; j < n; j++)                   /* at rest the command's qdd is 0 */
+        if ((g->model->joint[j].has_limits & FFWD_LIM_JERK)
+            && absr(g->pq[j]) > keep2 * g->model->joint[j].j_max * dt)
+            return 0;
+    for (i = 0; i < nseg; i++)
+        if (g->box_used[i] && !(box_fits(g, slot_at(g, i), g->box[i])
+                                && box_fits(g, slot_at(g, i + 1u), g->box[i])))
+            return 0;
+    return 1;
+}
+
+/* The braking plan that vouches for applying uc this cycle (FFWD_GOV_PLAN_*, its D in
+ * *D), or -1: the fastest stop if its changes of u fit the rate of rate, else a
+ * constant deceleration D of the stored one, Dr, Dr/2, Dr/4. */
+static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, ffwd_real *D)
+{
+    const ffwd_real dt = g->cfg.dt, kap = g->kappa, h = g->cfg.rate_rate_max * dt;
+    const ffwd_real kc = kap + uc * dt;
+    ffwd_real sc, Ds[4];
+    uint32_t c, nd = 0;
+    if (uc < FR(0) && kc <= FR(0)) {               /* rest within this cycle */
+        if (-uc <= h && g->sigma + kap * kap / (FR(-2) * uc) <= (ffwd_real)(g->count - 1u) * g->cfg.ds)
+            return (int)FFWD_GOV_PLAN_REST;
+        return -1;
+    }
+    sc = g->sigma + kap * dt + FR(0.5) * dt * dt * uc;
+    for (c = 0; c < g->model->dof; c++)
+        g->qdd0[c] = g->d2[c] * (kap * kap) + g->d1[c] * uc;
+    if (plan_fast(g, sc, kc, uc, h))
+        return (int)FFWD_GOV_PLAN_FAST;
+    if (g->plan == FFWD_GOV_PLAN_DECEL)
+        Ds[nd++] = g->plan_D;
+    Ds[nd++] = Dr;
+    Ds[nd++] = FR(0.5) * Dr;
+    Ds[nd++] = FR(0.25) * Dr;
+    for (c = 0; c < nd; c++) {
+        if (Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp)) {
+            *D = Ds[c];
+            return (int)FFWD_GOV_PLAN_DECEL;
+        }
+    }
+    return -1;
+}
+
+/* Store an accepted plan (the fastest stop: its x per sample); returns kind >= 0. */
+static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp)
+{
+    uint32_t k;
+    if (kind < 0)
+        return 0;
+    g->plan = (uint32_t)kind;
+    if (kind == (int)FFWD_GOV_PLAN_DECEL) {
+        g->plan_D = D;
+        g->plan_Vp = Vp;
+    }
+    if (kind == (int)FFWD_GOV_PLAN_FAST)
+        for (k = 0; k < g->count; k++)
+            slot_at(g, k)->x_plan = slot_at(g, k)->x_try;
+    return 1;
+}
+
+/* The stored plan's own u for this cycle. */
+static ffwd_real plan_step(ffwd_governor *g, ffwd_real x)
+{
+    const ffwd_real dt = g->cfg.dt, h = g->cfg.rate_rate_max * dt;
+    if (g->plan == FFWD_GOV_PLAN_REST || g->kappa <= FR(0))
+        return g->kappa <= FR(0) ? FR(0) : -g->kappa / dt;
+    if (g->plan == FFWD_GOV_PLAN_DECEL)
+        return plan_action(g, g->kappa, g->u, g->plan_D, g->plan_Vp);
+    return minr(maxr(safety_cap(g, x, 1), g->u - h), g->u + h);
+}
+
+/* Is uc within the limits [lo, hi] here and the rate-of-rate/jerk bounds [vlo, vhi]? */
+static int step_fits(const ffwd_governor *g, ffwd_real uc, ffwd_real lo, ffwd_real hi, ffwd_real vlo,
+                     ffwd_real vhi, uint32_t jerk_bad)
+{
+    const ffwd_real tol = FR(1e-9), vc = (uc - g->u) / g->cfg.dt;
+    return lo - tol * (FR(1) + absr(lo)) <= uc && uc <= hi + tol * (FR(1) + absr(hi))
+           && vlo - tol * (FR(1) + absr(vlo)) <= vc && vc <= vhi + tol * (FR(1) + absr(vhi))
+           && !jerk_bad;
+}
+
 ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_gov_output *out)
 {
     const ffwd_model *m;
@@ -470,8 +782,9 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     ffwd_real H[4][6];
     ffwd_real *d1, *d2, *d3, *tau0, *ta, *gq, *zq;
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
-    ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss;
+    ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss, hic, Vp, Dr, Dk = FR(0);
     uint32_t n, j, k, flags = 0, jerk_bad = 0;
+    int kind, got;
     ffwd_status st;
     if (out == NULL)
         return FFWD_E_ARG;
@@ -522,6 +835,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         g->kappa = FR(0);
         g->u = FR(0);
         g->sigma = FR(0);
+        ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
         return FFWD_OK;
     }
     s1 = slot_at(g, 1);
@@ -618,7 +932,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
             hi = minr(hi, (vq / maxr(d1n, vq * FR(1e-15)) - kap) / dt);
     }
     /* (c) under the safe curve at the end of this cycle */
-    cap = safety_cap(g, x);
+    cap = safety_cap(g, x, 0);
     /* tracker target: the command, or the lowest point of the safe curve over the
      * distance covered while u swings through its range (jerk-bounded anticipation) */
     look = g->sigma + kap * (maxr(g->u, FR(0)) / V + dt);
@@ -649,7 +963,8 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         const ffwd_joint *J = &m->joint[j];
         if (J->has_limits & FFWD_LIM_JERK) {
             ffwd_real jm = keep * J->j_max;
-            ffwd_real J0 = d3[j] * x * kap + FR(3) * d2[j] * kap * g->u;
+            /* the command's jerk over this cycle, exactly: J0 + q' du/dt */
+            ffwd_real J0 = (d2[j] * x + d1[j] * g->u - g->qdd_prev[j]) / dt;
             ffwd_real al = d1[j];
             if (absr(al) > ALPHA_TOL) {
                 ffwd_real va = (-jm - J0) / al, vb = (jm - J0) / al;
@@ -667,12 +982,54 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     }
     v = minr(maxr((ud - g->u) / dt, vlo), vhi);
     utr = g->u + v * dt;
-    hi = minr(hi, cap);
-    if (lo > hi) {
-        unew = hi;
+    hic = minr(hi, cap);
+    if (lo > hic) {
+        unew = hic;
         flags |= FFWD_GOV_CONFLICT;
     } else {
-        unew = minr(maxr(utr, lo), hi);
+        unew = minr(maxr(utr, lo), hic);
+    }
+    /* (b) with (c): the step is kept only if a braking plan from where it leads meets
+     * every limit with the rate of rate bounded; else the largest u towards it that has
+     * one (halvings), else the stored plan's own u */
+    Vp = V;
+    Dr = U;
+    for (k = 0; k < g->count; k++) {
+        Vp = minr(Vp, slot_at(g, k)->vp);   /* ramp rate of plan D */
+        Dr = minr(Dr, slot_at(g, k)->dr);   /* its largest deceleration */
+    }
+    got = 0;
+    if (step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad) && !(flags & FFWD_GOV_CONFLICT)) {
+        kind = vouch(g, unew, Vp, Dr, &Dk);
+        got = keep_plan(g, kind, Dk, Vp);
+    }
+    if (!got) {
+        ffwd_real ua, ub, ufb = plan_step(g, x);
+        ua = ufb;
+        ub = unew;
+        for (k = 0; k < GOV_BISECT; k++) {
+            ffwd_real mid = FR(0.5) * (ua + ub);
+            int r = 0;
+            if (step_fits(g, mid, lo, hi, vlo, vhi, jerk_bad)) {
+                kind = vouch(g, mid, Vp, Dr, &Dk);
+                r = keep_plan(g, kind, Dk, Vp);
+            }
+            if (!r) {
+                ub = mid;
+            } else {
+                ua = mid;
+                got = 1;
+            }
+        }
+        if (!got) {
+            if (!(lo - FR(1e-9) * (FR(1) + absr(lo)) <= ufb && ufb <= hi + FR(1e-9) * (FR(1) + absr(hi))))
+                flags |= FFWD_GOV_CONFLICT;
+        } else {
+            ufb = ua;
+        }
+        if (ufb < unew)
+            flags |= FFWD_GOV_CAPPED;
+        unew = ufb;
     }
     vact = (unew - g->u) / dt;
     if (jerk_bad || vact < vlo - FR(1e-9) * (FR(1) + absr(vlo))
@@ -714,5 +1071,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     g->sigma = sig;
     g->kappa = kn;
     g->u = unew;
+    for (j = 0; j < n; j++)
+        g->qdd_prev[j] = out->qdd[j];
     return FFWD_OK;
 }

@@ -10,8 +10,15 @@
  *   (a) torque (friction included), velocity and acceleration limits hold at the
  *       commanded state (limits are used reduced by cfg.margin, which absorbs the
  *       interpolation between samples);
- *   (b) |u| <= rate_max; |du/dt| <= rate_rate_max and joint jerk limits hold unless
- *       keeping (a) or (c) needs more (then FFWD_GOV_JERK is set in the output);
+ *   (b) |u| <= rate_max; |du/dt| <= rate_rate_max and joint jerk limits hold: a step
+ *       is applied only if a braking plan from the state it leads to reaches rest inside
+ *       the window meeting every limit (twice the margin) with |du/dt| <= rate_rate_max
+ *       and the joint jerk limits; otherwise the last such plan's own step is applied
+ *       (a plan is a state feedback, so following it keeps it valid). Two plans are
+ *       tried: the fastest stop (each sample's smallest admissible u, the safe curve's
+ *       own braking) when its changes of u fit one cycle each, else a constant
+ *       deceleration with u ramped at a rate within the jerk limits. FFWD_GOV_JERK
+ *       is set only if a plan could not be followed (not expected);
  *   (c) the robot can still be brought to rest before the last sample in the window
  *       (x = kappa^2 stays under the piecewise-linear safe curve of a backward
  *       reachability pass over the window, x = 0 at its last sample);
@@ -20,8 +27,11 @@
  * O(dof * horizon) at most (only the lower bounds that are the largest somewhere on the
  * sample's speed range are kept, so usually far fewer), plus two inverse dynamics calls
  * and one gravity call at the current point (the torque there is exactly tau0 + a u);
- * each push costs two inverse-dynamics calls, one gravity call and O(dof^2) for the
- * sample's largest admissible speed. No heap.
+ * plus the plan checks of (b): the fastest stop is O(dof * horizon); plan D simulates
+ * its cycles to rest (at most FFWD_GOV_PLAN_CYCLES), and up to 5 steps are checked a
+ * cycle (the tracker's, then halvings towards the stored plan's); each push costs two
+ * inverse-dynamics calls, one gravity call and O(dof^2) for the sample's largest
+ * admissible speed. No heap.
  * (a) uses the limits reduced by margin; the safe curve of (c) is computed with the
  * limits reduced by 2 * margin, so a state on it can follow it between samples.
  *
@@ -63,6 +73,12 @@ typedef struct ffwd_gov_config {
     ffwd_real margin;        /* fraction of each limit held in reserve, 0 <= margin < 0.5 */
 } ffwd_gov_config;
 
+/* the governor's stored braking plan (internal) */
+enum { FFWD_GOV_PLAN_REST = 0u, FFWD_GOV_PLAN_FAST = 1u, FFWD_GOV_PLAN_DECEL = 2u };
+#ifndef FFWD_GOV_PLAN_CYCLES
+#define FFWD_GOV_PLAN_CYCLES 100000   /* cycles of plan D simulated at most */
+#endif
+
 typedef struct ffwd_gov_slot {     /* one window sample (internal) */
     ffwd_real q[FFWD_MAX_DOF], dq[FFWD_MAX_DOF], ddq[FFWD_MAX_DOF], dddq[FFWD_MAX_DOF];
     ffwd_real a[FFWD_MAX_DOF], b[FFWD_MAX_DOF], c[FFWD_MAX_DOF];
@@ -72,6 +88,9 @@ typedef struct ffwd_gov_slot {     /* one window sample (internal) */
     uint32_t ncols;
     ffwd_real x_max;               /* largest admissible kappa^2 here */
     ffwd_real x_safe;              /* largest kappa^2 from which rest is reachable in the window */
+    ffwd_real x_try, x_plan;       /* the fastest-stop plan's kappa^2 here: tried, stored */
+    ffwd_real vp;                  /* ramp rate the jerk limits allow plan D here (half) */
+    ffwd_real dr;                  /* largest constant deceleration the limits allow at rest */
 } ffwd_gov_slot;
 
 typedef struct ffwd_governor {
@@ -87,10 +106,19 @@ typedef struct ffwd_governor {
     uint32_t pieces;        /* window segments one cycle can reach */
     ffwd_real sigma;        /* progress past the first sample, [0, ds) */
     ffwd_real kappa, u;     /* applied override and its rate */
+    ffwd_real qdd_prev[FFWD_MAX_DOF];   /* the last command's qdd (joint jerk per cycle) */
     uint32_t fault_index;   /* after FFWD_E_INFEASIBLE from push: sample index, */
     int32_t fault_joint;    /* joint (-1: none) and */
     uint32_t fault_limit;   /* FFWD_LIM_* bit of the limit that cannot be met */
+    uint32_t plan;          /* the stored braking plan: FFWD_GOV_PLAN_* (internal) */
+    ffwd_real plan_D, plan_Vp;  /* plan D: deceleration and ramp rate */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
+    /* scratch of the plan D check: per window segment the box of the plan's states
+     * (kappa low, high, u low, high) and whether a cycle starts there; the command's
+     * qdd before the plan and along it */
+    ffwd_real box[FFWD_GOV_MAX_HORIZON][4];
+    ffwd_real qdd0[FFWD_MAX_DOF], pq[FFWD_MAX_DOF];
+    uint8_t box_used[FFWD_GOV_MAX_HORIZON];
     /* scratch of ffwd_governor_push (kept here, off the stack): the rows' lower and
      * upper bounds of u, u >= lB x + lG kappa + lD and u <= uB x + uG kappa + uD */
     ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];

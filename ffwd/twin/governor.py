@@ -24,6 +24,8 @@ from .rnea import gravity_torque, inverse_dynamics
 BIG = 1e30
 CAP = 1e15
 ALPHA_TOL = 1e-12
+NBISECT = 4            # halvings between the plan's u and the step's
+MAX_PLAN_CYCLES = 100000   # cycles of plan D simulated at most (longer: not vouched for)
 REST_TOL = 1e-12
 
 AT_REST, DONE, CAPPED, JERK, CONFLICT, STARVED = 1, 2, 4, 8, 16, 32
@@ -92,7 +94,8 @@ def hermite_basis(th):
 
 class Slot:
     """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
-    __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe")
+    __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe",
+                 "x_try", "x_plan", "vp", "dr")
 
 
 class GovernorTwin:
@@ -141,6 +144,9 @@ class GovernorTwin:
         self.sigma = 0.0
         self.kappa = 0.0
         self.u = 0.0
+        self.qdd_prev = [0.0] * self.n      # the last command's qdd (for the jerk per cycle)
+        self.plan = None          # the stored braking plan: None or ("rest",), ("P",) (x_plan of
+                                  # the slots) or ("D", D, Vp)
         reach = self.override_max * self.dt + 0.5 * self.U * self.dt * self.dt
         self.pieces = 1
         for p in range(1, self.H - 1):
@@ -284,6 +290,19 @@ class GovernorTwin:
                 sl.bC.append(2.0 * ds * lD[i])
         sl.x_max = X
         sl.x_safe = 0.0
+        sl.x_try = sl.x_plan = 0.0     # the fastest-stop plan's x here (0: at rest)
+        # for the constant-deceleration plan: its ramp rate may use half of what the jerk
+        # limits allow for this q' (vp); the deceleration every limit allows at rest (dr)
+        sl.vp, sl.dr = BIG, BIG
+        for j in range(n):
+            dq = abs(sl.dq[j])
+            if self.j_max[j] is not None and dq > 0.0:
+                sl.vp = min(sl.vp, 0.5 * keep * self.j_max[j] / dq)
+            if abs(sl.a[j]) > 0.0:
+                room = keep * self.tau_max[j] - abs(sl.c[j]) - self.coulomb[j]
+                sl.dr = min(sl.dr, max(room, 0.0) / abs(sl.a[j]))
+            if dq > 0.0:
+                sl.dr = min(sl.dr, keep * self.a_max[j] / dq)
         self.window.append(sl)
         self.pushed += 1
         self.dirty = True
@@ -315,7 +334,7 @@ class GovernorTwin:
             nxt = sl
         self.dirty = False
 
-    def safety_cap(self, x):
+    def safety_cap(self, x, plan=False):
         """Largest u whose constant-u motion over this cycle ends under the safe curve:
         on window segment j, x + 2 u d(u) <= Xs_j + m_j (sigma + d(u) - S_j) with
         d(u) = kappa dt + dt^2 u / 2, a quadratic in u."""
@@ -325,7 +344,7 @@ class GovernorTwin:
         for j in range(self.pieces):
             if j + 1 < len(w):
                 Sj = j * ds
-                Xa, Xb = w[j].x_safe, w[j + 1].x_safe
+                Xa, Xb = (w[j].x_plan, w[j + 1].x_plan) if plan else (w[j].x_safe, w[j + 1].x_safe)
                 mj = (Xb - Xa) / ds
                 A = 2.0 * e1
                 B = 2.0 * e0 - mj * e1
@@ -342,6 +361,198 @@ class GovernorTwin:
                     if max(rm, ulo) <= min(rp, uhi):
                         cap = max(cap, min(rp, uhi))
         return cap
+
+
+    # ---- (b) with (c): the braking plans that vouch for a step
+    def brake_u(self, sl, x):
+        """The smallest admissible u at sample sl for x (twice the margin)."""
+        k, L = sqrt0(x), -BIG
+        for A, B, C in zip(sl.bA, sl.bB, sl.bC):
+            L = max(L, ((A - 1.0) * x + B * k + C) / (2.0 * self.ds))
+        return L
+
+    def jerk_ok(self, sl, x, u, v):
+        keep2 = 1.0 - 2.0 * self.margin
+        k = sqrt0(x)
+        for j in range(self.n):
+            if self.j_max[j] is not None:
+                J = sl.dddq[j] * x * k + 3.0 * sl.ddq[j] * k * u + sl.dq[j] * v
+                if abs(J) > keep2 * self.j_max[j]:
+                    return False
+        return True
+
+    def plan_brake(self, sig, kap, u, h):
+        """Plan P: brake at each sample's smallest admissible u (the fastest stop, what the
+        safe curve assumes) from (sig, kappa) after a cycle at u; the changes of u at the
+        samples and the last one, to rest, must each fit in one cycle's rate of rate h.
+        Writes the plan's x per sample into x_try (0 after rest); True if it holds."""
+        w, ds, dt = self.window, self.ds, self.dt
+        last = len(w) - 1
+        i = int(sig / ds)
+        if i >= last:
+            return False
+        for sl in w:
+            sl.x_try = 0.0
+        x, pos, up, first = kap * kap, sig, u, True
+        while True:
+            s0, s1 = w[i], w[i + 1]
+            d = (i + 1) * ds - pos
+            L = self.brake_u(s0, x)
+            if first:
+                L = max(L, self.brake_u(s1, x))
+            L = max(L, self.brake_u(s1, max(x + 2.0 * d * L, 0.0)))
+            xe = x + 2.0 * d * L
+            if (abs(L - up) > h or not self.jerk_ok(s0, x, L, (L - up) / dt)
+                    or not self.jerk_ok(s0, x, up, (L - up) / dt)):
+                return False
+            s0.x_try = x - 2.0 * L * (pos - i * ds)
+            if xe <= 0.0:
+                return abs(L) <= h
+            if (i + 1 >= last or xe > s1.x_max or self.brake_u(s1, xe) > L
+                    or not self.jerk_ok(s1, xe, L, 0.0)):
+                return False
+            s1.x_try = xe
+            x, up, pos, first = xe, L, (i + 1) * ds, False
+            i += 1
+
+    def ramp_need(self, u, Vp):
+        """kappa used up while u < 0 steps back to 0 by Vp dt per cycle."""
+        h = Vp * self.dt
+        m = math.floor(-u / h) if u < 0.0 else 0
+        return self.dt * (m * (-u) - h * m * (m + 1) / 2.0)
+
+    def plan_action(self, kap, u, D, Vp):
+        """Plan D's u for the next cycle: u ramps at -Vp to -D, holds, and ramps back at
+        +Vp to reach rest (u changes by at most Vp dt a cycle)."""
+        dt, h = self.dt, Vp * self.dt
+        if kap <= 0.0:
+            return 0.0
+        if kap <= h * dt and kap <= D * dt and -kap / dt >= u - h:
+            return -kap / dt                      # rest at the end of this cycle
+        d = max(u - h, -D) if u > -D else min(u + h, -D)
+        kn = kap + d * dt
+        if kn > 0.0 and kn >= self.ramp_need(d, Vp):
+            return d
+        return min(u + h, 0.0)
+
+    def plan_decel(self, sig, kap, u, D, Vp, qdd0):
+        """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
+        Its cycles are simulated; per window segment the box of its cycle states is
+        tested at both ends (rows interpolate linearly between samples); the joint jerk
+        per cycle, from qdd0 (the command before the plan) on, with q' and q''
+        interpolated linearly between samples."""
+        ds, w, dt = self.ds, self.window, self.dt
+        keep2 = 1.0 - 2.0 * self.margin
+        qp = list(qdd0)
+        nseg = len(w) - 1
+        send = nseg * ds
+        box = {}
+        s, k, uu = sig, kap, u
+        cycles = 0
+        while k > 0.0:
+            cycles += 1
+            if cycles > MAX_PLAN_CYCLES or s > send:
+                return False
+            un = self.plan_action(k, uu, D, Vp)
+            i = min(int(s / ds), nseg - 1)
+            th = s / ds - i
+            for j in range(self.n):
+                if self.j_max[j] is not None:
+                    dq = w[i].dq[j] + th * (w[i + 1].dq[j] - w[i].dq[j])
+                    ddq = w[i].ddq[j] + th * (w[i + 1].ddq[j] - w[i].ddq[j])
+                    qn = ddq * k * k + dq * un
+                    if abs(qn - qp[j]) > keep2 * self.j_max[j] * dt:
+                        return False
+                    qp[j] = qn
+            # the box of kappa and u (this cycle's and the one before)
+            b = box.get(i)
+            if b is None:
+                box[i] = [k, k, min(uu, un), max(uu, un)]
+            else:
+                b[0] = min(b[0], k); b[1] = max(b[1], k)
+                b[2] = min(b[2], min(uu, un)); b[3] = max(b[3], max(uu, un))
+            if un < 0.0 and k + un * dt <= 0.0:
+                if -un > Vp * dt * (1.0 + 1e-9):     # u drops to 0 at rest: one cycle's change
+                    return False
+                s += k * k / (-2.0 * un)
+                k = uu = 0.0
+            else:
+                s += k * dt + 0.5 * dt * dt * un
+                k += un * dt
+                uu = un
+        if s > send:
+            return False
+        for j in range(self.n):                    # at rest the command's qdd is 0
+            if self.j_max[j] is not None and abs(qp[j]) > keep2 * self.j_max[j] * dt:
+                return False
+        for i, (kl, kh, ul, uh) in box.items():
+            if not (self.box_fits(w[i], kl, kh, ul, uh) and self.box_fits(w[i + 1], kl, kh, ul, uh)):
+                return False
+        return True
+
+    def box_fits(self, sl, kl, kh, ul, uh):
+        """Every limit of sample sl (twice the margin) over the box of states."""
+        keep2 = 1.0 - 2.0 * self.margin
+        if kh * kh > sl.x_max:
+            return False
+        for j in range(self.n):
+            dq, ddq = sl.dq[j], sl.ddq[j]
+            fc = self.coulomb[j] * sgn(dq)
+            tm, am = keep2 * self.tau_max[j], keep2 * self.a_max[j]
+            if abs(dq) * kh > keep2 * self.v_max[j]:
+                return False
+            gv = self.viscous[j] * dq
+            ks = [kl, kh]
+            if sl.b[j] < 0.0 and kl < -gv / (2.0 * sl.b[j]) < kh:
+                ks.append(-gv / (2.0 * sl.b[j]))     # interior maximum of b x + gv kappa
+            for uu in (ul, uh):
+                for k in ks:
+                    x = k * k
+                    tau = sl.a[j] * uu + sl.b[j] * x + gv * k + sl.c[j]
+                    if tau + max(fc, 0.0) > tm or tau + min(fc, 0.0) < -tm:
+                        return False
+                    if abs(ddq * x + dq * uu) > am:
+                        return False
+        return True
+
+    def vouch(self, uc, Vp, Dr):
+        """The braking plan that vouches for applying uc this cycle, or None: the fastest
+        stop (P) if its changes of u fit the rate of rate, else a constant deceleration."""
+        dt, kap = self.dt, self.kappa
+        h = self.V * dt
+        kc = kap + uc * dt
+        if uc < 0.0 and kc <= 0.0:                 # rest within this cycle
+            if -uc <= h and self.sigma + kap * kap / (-2.0 * uc) <= (len(self.window) - 1) * self.ds:
+                return ("rest",)
+            return None
+        sc = self.sigma + kap * dt + 0.5 * dt * dt * uc
+        x = kap * kap
+        qdd0 = [self.d2[j] * x + self.d1[j] * uc for j in range(self.n)]
+        if self.plan_brake(sc, kc, uc, h):
+            return ("P",)
+        Ds = [self.plan[1]] if self.plan is not None and self.plan[0] == "D" else []
+        for D in Ds + [Dr, 0.5 * Dr, 0.25 * Dr]:
+            if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0):
+                return ("D", D, Vp)
+        return None
+
+    def keep_plan(self, plan):
+        """Store an accepted plan (P: its x per sample) and return it."""
+        if plan is not None:
+            self.plan = plan
+            if plan[0] == "P":
+                for sl in self.window:
+                    sl.x_plan = sl.x_try
+        return plan
+
+    def plan_step(self, x):
+        """The stored plan's own u for this cycle."""
+        p, h = self.plan, self.V * self.dt
+        if p is None or p[0] == "rest" or self.kappa <= 0.0:
+            return 0.0 if self.kappa <= 0.0 else -self.kappa / self.dt
+        if p[0] == "D":
+            return self.plan_action(self.kappa, self.u, p[1], p[2])
+        return min(max(self.safety_cap(x, plan=True), self.u - h), self.u + h)
 
     # ---- one control cycle
     def step(self, override_cmd):
@@ -362,6 +573,7 @@ class GovernorTwin:
                        s=self.base * ds, override=0.0, rate=0.0, rate_rate=-self.u / dt,
                        safe_override=0.0, flags=AT_REST | (DONE if self.finished else STARVED))
             self.kappa = self.u = self.sigma = 0.0
+            self.qdd_prev = [0.0] * n
             return out
         s1 = w[1]
         th = self.sigma / ds
@@ -379,6 +591,7 @@ class GovernorTwin:
         kap = self.kappa
         x = kap * kap
         flags = 0
+        self.d1, self.d2 = d1, d2            # for the plan checks
         # the torque at this point is affine in u: tau = tau0 + a u, with tau0 the inverse
         # dynamics at (q, q' kappa, q'' x) and a = M q' = ID(q, 0, q') - g (exact, friction
         # included, no interpolation between samples)
@@ -456,7 +669,8 @@ class GovernorTwin:
         for j in range(n):
             if self.j_max[j] is not None:
                 jm = keep * self.j_max[j]
-                J0 = d3[j] * x * kap + 3.0 * d2[j] * kap * self.u
+                # the command's jerk over this cycle, exactly: J0 + q' du/dt
+                J0 = (d2[j] * x + d1[j] * self.u - self.qdd_prev[j]) / dt
                 al = d1[j]
                 if abs(al) > ALPHA_TOL:
                     va, vb = (-jm - J0) / al, (jm - J0) / al
@@ -469,12 +683,42 @@ class GovernorTwin:
             vlo, vhi = -V, V
         v = min(max((ud - self.u) / dt, vlo), vhi)
         utr = self.u + v * dt
-        hi = min(hi, cap)
-        if lo > hi:
-            unew = hi
+        hic = min(hi, cap)
+        if lo > hic:
+            unew = hic
             flags |= CONFLICT
         else:
-            unew = min(max(utr, lo), hi)
+            unew = min(max(utr, lo), hic)
+        # (b) with (c): the step is kept only if a braking plan from where it leads meets
+        # every limit with the rate of rate bounded; else the largest u towards it that
+        # has one (halvings), else the stored plan's own u
+        tol = 1e-9
+        def fits(uc):
+            vc = (uc - self.u) / dt
+            return (lo - tol * (1.0 + abs(lo)) <= uc <= hi + tol * (1.0 + abs(hi))
+                    and vlo - tol * (1.0 + abs(vlo)) <= vc <= vhi + tol * (1.0 + abs(vhi))
+                    and not jerk_bad)
+        Vp = min([self.V] + [sl.vp for sl in self.window])     # ramp rate of plan D
+        Dr = min([self.U] + [sl.dr for sl in self.window])     # its largest deceleration
+        got = self.keep_plan(self.vouch(unew, Vp, Dr)) if fits(unew) and not (flags & CONFLICT) else None
+        if got is None:
+            ufb = self.plan_step(x)
+            a, b = ufb, unew
+            for _ in range(NBISECT):
+                mid = 0.5 * (a + b)
+                r = self.keep_plan(self.vouch(mid, Vp, Dr)) if fits(mid) else None
+                if r is None:
+                    b = mid
+                else:
+                    a, got = mid, r
+            if got is None:
+                if not (lo - tol * (1.0 + abs(lo)) <= ufb <= hi + tol * (1.0 + abs(hi))):
+                    flags |= CONFLICT
+            else:
+                ufb = a
+            if ufb < unew:
+                flags |= CAPPED
+            unew = ufb
         vact = (unew - self.u) / dt
         if (jerk_bad or vact < vlo - 1e-9 * (1.0 + abs(vlo))
                 or vact > vhi + 1e-9 * (1.0 + abs(vhi))):
@@ -502,4 +746,5 @@ class GovernorTwin:
                 w.pop(0)
                 self.base += 1
         self.sigma, self.kappa, self.u = sig, kn, unew
+        self.qdd_prev = [float(v) for v in qdd]
         return out
