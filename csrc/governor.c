@@ -371,6 +371,8 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     sl->x_safe = FR(0);
     sl->x_try = FR(0);              /* the fastest-stop plan's x here (0: at rest) */
     sl->x_plan = FR(0);
+    sl->u_try = FR(0);
+    sl->u_plan = FR(0);
     /* for plan D: its ramp rate may use half of what the jerk limits allow for this q'
      * (vp); the deceleration every limit allows at rest (dr) */
     sl->vp = BIG;
@@ -466,8 +468,9 @@ static ffwd_real safety_cap(ffwd_governor *g, ffwd_real x, int plan)
         if (j + 1u < g->count) {
             ffwd_real Sj = (ffwd_real)j * ds;
             const ffwd_gov_slot *sa = slot_at(g, j), *sb = slot_at(g, j + 1u);
-            ffwd_real Xa = plan ? sa->x_plan : sa->x_safe, Xb = plan ? sb->x_plan : sb->x_safe;
-            ffwd_real mj = (Xb - Xa) / ds;
+            /* plan P: its line on this segment (it may reach 0 inside) */
+            ffwd_real Xa = plan ? sa->x_plan : sa->x_safe;
+            ffwd_real mj = plan ? FR(2) * sa->u_plan : (sb->x_safe - Xa) / ds;
             ffwd_real A = FR(2) * e1;
             ffwd_real B = FR(2) * e0 - mj * e1;
             ffwd_real C = x - Xa - mj * (g->sigma + e0 - Sj);
@@ -532,23 +535,32 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
     int first = 1;
     if (i >= last)
         return 0;
-    for (k = 0; k < g->count; k++)
+    for (k = 0; k < g->count; k++) {
         slot_at(g, k)->x_try = FR(0);
+        slot_at(g, k)->u_try = FR(0);
+    }
     for (;;) {
         ffwd_gov_slot *s0 = slot_at(g, i), *s1 = slot_at(g, i + 1u);
         ffwd_real d = (ffwd_real)(i + 1u) * ds - pos, L, xe;
         L = brake_u(g, s0, x);
         if (first)
             L = maxr(L, brake_u(g, s1, x));
-        L = maxr(L, brake_u(g, s1, maxr(x + FR(2) * d * L, FR(0))));
+        for (k = 0; k < 3u; k++) {           /* admissible at the segment's end too */
+            ffwd_real L1 = brake_u(g, s1, maxr(x + FR(2) * d * L, FR(0)));
+            if (L1 <= L)
+                break;
+            L = L1;
+        }
         xe = x + FR(2) * d * L;
         if (absr(L - up) > h || !jerk_ok(g, s0, x, L, (L - up) / dt)
             || !jerk_ok(g, s0, x, up, (L - up) / dt))
             return 0;
         s0->x_try = x - FR(2) * L * (pos - (ffwd_real)i * ds);
+        s0->u_try = L;
         if (xe <= FR(0))
             return absr(L) <= h;
-        if (i + 1u >= last || xe > s1->x_max || brake_u(g, s1, xe) > L || !jerk_ok(g, s1, xe, L, FR(0)))
+        if (i + 1u >= last || xe > s1->x_max || brake_u(g, s1, xe) > L + FR(1e-9) * (FR(1) + absr(L))
+            || !jerk_ok(g, s1, xe, L, FR(0)))
             return 0;
         s1->x_try = xe;
         x = xe;
@@ -625,6 +637,113 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
     return 1;
 }
 
+/* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
+ * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Their boxes join the
+ * segments' and their joint jerk is checked: the first cycle's exactly (interpolated q',
+ * q''), the rest by the largest d qdd / ds over the segments they cross times the
+ * longest step. Returns the number of cycles skipped (0: none), or -1 if the jerk
+ * fails; g->pq becomes the last cycle's qdd. */
+static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real Vp)
+{
+    const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds, keep2 = FR(1) - FR(2) * g->cfg.margin;
+    const uint32_t n = g->model->dof, nseg = g->count - 1u;
+    ffwd_real mm = minr((k - ramp_need(g, -D, Vp)) / (D * dt), FR(1e9)), x0 = k * k;
+    ffwd_real s_last, k_last, *slope = g->zq;
+    long m;
+    uint32_t i, i0, i1, j;
+    if (!(mm >= FR(0)))
+        return 0;
+    m = (long)(uint32_t)mm - 2;              /* floor, less the last two hold cycles */
+    if (m < 2)
+        return 0;
+    s_last = s + (ffwd_real)(m - 1) * k * dt - FR(0.5) * D * dt * dt * (ffwd_real)(m - 1) * (ffwd_real)(m - 1);
+    k_last = k - (ffwd_real)(m - 1) * D * dt;
+    if (s_last > (ffwd_real)nseg * ds)
+        return 0;                            /* beyond the window: the cycles say so */
+    i0 = (uint32_t)(s / ds);
+    i1 = (uint32_t)(s_last / ds);
+    if (i1 > nseg - 1u)
+        i1 = nseg - 1u;
+    for (j = 0; j < n; j++)
+        slope[j] = FR(0);
+    for (i = i0; i <= i1; i++) {
+        const ffwd_gov_slot *sa = slot_at(g, i), *sb = slot_at(g, i + 1u);
+        ffwd_real lo_s = maxr(s, (ffwd_real)i * ds), hi_s = minr(s_last, (ffwd_real)(i + 1u) * ds);
+        ffwd_real kh = sqrt0(x0 - FR(2) * D * (lo_s - s)), kl = sqrt0(x0 - FR(2) * D * (hi_s - s));
+        ffwd_real *b = g->box[i];
+        if (!g->box_used[i]) {
+            g->box_used[i] = 1;
+            b[0] = kl;
+            b[1] = kh;
+            b[2] = -D;
+            b[3] = -D;
+        } else {
+            b[0] = minr(b[0], kl);
+            b[1] = maxr(b[1], kh);
+            b[2] = minr(b[2], -D);
+            b[3] = maxr(b[3], -D);
+        }
+        for (j = 0; j < n; j++) {
+            ffwd_real g1 = (sb->dq[j] - sa->dq[j]) / ds, g2 = (sb->ddq[j] - sa->ddq[j]) / ds;
+            ffwd_real dd = maxr(absr(sa->ddq[j]), absr(sb->ddq[j]));
+            slope[j] = maxr(slope[j], absr(g2) * kh * kh + FR(2) * D * dd + D * absr(g1));
+        }
+    }
+    for (j = 0; j < n; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        ffwd_real jm;
+        int pass;
+        if (!(J->has_limits & FFWD_LIM_JERK))
+            continue;
+        jm = keep2 * J->j_max;
+        if (slope[j] * k > jm)               /* d qdd / ds times ds per cycle (< kappa dt) */
+            return -1;
+        for (pass = 0; pass < 2; pass++) {
+            ffwd_real ss = pass == 0 ? s : s_last, kk = pass == 0 ? k : k_last, th, dq, ddq, qn;
+            const ffwd_gov_slot *sa, *sb;
+            i = (uint32_t)(ss / ds);
+            if (i > nseg - 1u)
+                i = nseg - 1u;
+            th = ss / ds - (ffwd_real)i;
+            sa = slot_at(g, i);
+            sb = slot_at(g, i + 1u);
+            dq = sa->dq[j] + th * (sb->dq[j] - sa->dq[j]);
+            ddq = sa->ddq[j] + th * (sb->ddq[j] - sa->ddq[j]);
+            qn = ddq * kk * kk - dq * D;
+            if (pass == 0 && absr(qn - g->pq[j]) > jm * dt)
+                return -1;
+            if (pass == 1)
+                g->pq[j] = qn;
+        }
+    }
+    return m;
+}
+
+/* Path length plan D covers to rest in continuous time (u ramps at -V to -D or less,
+ * holds, ramps back at +V): a quick test before its cycles are simulated. */
+static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V)
+{
+    ffwd_real F, um, T[3], v[3], s = FR(0);
+    uint32_t p;
+    D = maxr(D, -u);
+    F = k + u * absr(u) / (FR(2) * V);      /* kappa once u is ramped to 0 (u < 0: less) */
+    if (F <= FR(0))
+        return FR(0);
+    um = F >= D * D / V ? -D : -sqrt0(V * F);
+    T[0] = (u - um) / V;
+    v[0] = -V;
+    T[1] = (F - um * um / V) / -um;        /* hold at um */
+    v[1] = FR(0);
+    T[2] = -um / V;
+    v[2] = V;
+    for (p = 0; p < 3u; p++) {
+        s += k * T[p] + FR(0.5) * u * T[p] * T[p] + v[p] * T[p] * T[p] * T[p] / FR(6);
+        k += u * T[p] + FR(0.5) * v[p] * T[p] * T[p];
+        u += v[p] * T[p];
+    }
+    return s;
+}
+
 /* Does plan D from (sig, kap, u) meet every limit and rest inside the window? Its
  * cycles are simulated; per window segment the box of its cycle states is tested at
  * both ends (rows interpolate linearly between samples); the joint jerk per cycle,
@@ -638,6 +757,8 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     const ffwd_real send = (ffwd_real)nseg * ds;
     ffwd_real s = sig, k = kap, uu = u;
     uint32_t cycles = 0, i, j;
+    if (sig + stop_length(kap, u, D, Vp) > send)
+        return 0;                           /* it cannot rest inside the window */
     for (i = 0; i < nseg; i++)
         g->box_used[i] = 0;
     for (j = 0; j < n; j++)
@@ -645,6 +766,18 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     while (k > FR(0)) {
         ffwd_real un, th, *b;
         const ffwd_gov_slot *sa, *sb;
+        if (uu == -D) {                      /* holding: skip the middle of the hold */
+            long mk = hold_skip(g, s, k, D, Vp);
+            if (mk < 0)
+                return 0;
+            if (mk > 0) {
+                ffwd_real mr = (ffwd_real)mk;
+                cycles += (uint32_t)mk;
+                s += mr * k * dt - FR(0.5) * D * dt * dt * mr * mr;
+                k -= mr * D * dt;
+                continue;
+            }
+        }
         cycles++;
         if (cycles > (uint32_t)FFWD_GOV_PLAN_CYCLES || s > send)
             return 0;
@@ -706,8 +839,9 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
 
 /* The braking plan that vouches for applying uc this cycle (FFWD_GOV_PLAN_*, its D in
  * *D), or -1: the fastest stop if its changes of u fit the rate of rate, else a
- * constant deceleration D of the stored one, Dr, Dr/2, Dr/4. */
-static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, ffwd_real *D)
+ * constant deceleration D of the stored one, Dr, Dr/2, Dr/4 (every = 0: the first two
+ * of these). */
+static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int every, ffwd_real *D)
 {
     const ffwd_real dt = g->cfg.dt, kap = g->kappa, h = g->cfg.rate_rate_max * dt;
     const ffwd_real kc = kap + uc * dt;
@@ -728,6 +862,8 @@ static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, ffw
     Ds[nd++] = Dr;
     Ds[nd++] = FR(0.5) * Dr;
     Ds[nd++] = FR(0.25) * Dr;
+    if (!every)
+        nd = 2;
     for (c = 0; c < nd; c++) {
         if (Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp)) {
             *D = Ds[c];
@@ -749,8 +885,10 @@ static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp)
         g->plan_Vp = Vp;
     }
     if (kind == (int)FFWD_GOV_PLAN_FAST)
-        for (k = 0; k < g->count; k++)
+        for (k = 0; k < g->count; k++) {
             slot_at(g, k)->x_plan = slot_at(g, k)->x_try;
+            slot_at(g, k)->u_plan = slot_at(g, k)->u_try;
+        }
     return 1;
 }
 
@@ -758,10 +896,18 @@ static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp)
 static ffwd_real plan_step(ffwd_governor *g, ffwd_real x)
 {
     const ffwd_real dt = g->cfg.dt, h = g->cfg.rate_rate_max * dt;
+    ffwd_real u0;
     if (g->plan == FFWD_GOV_PLAN_REST || g->kappa <= FR(0))
         return g->kappa <= FR(0) ? FR(0) : -g->kappa / dt;
     if (g->plan == FFWD_GOV_PLAN_DECEL)
         return plan_action(g, g->kappa, g->u, g->plan_D, g->plan_Vp);
+    /* plan P: its u on this segment (the state is on its line), the landing on the next
+     * segment's line where the cycle crosses a sample */
+    u0 = slot_at(g, 0)->u_plan;
+    if (g->sigma + g->kappa * dt + FR(0.5) * dt * dt * u0 < g->cfg.ds || g->kappa + u0 * dt <= FR(0))
+        return u0;
+    if (g->kappa + slot_at(g, 1)->u_plan * dt <= FR(0))
+        return slot_at(g, 1)->u_plan;
     return minr(maxr(safety_cap(g, x, 1), g->u - h), g->u + h);
 }
 
@@ -1000,7 +1146,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     }
     got = 0;
     if (step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad) && !(flags & FFWD_GOV_CONFLICT)) {
-        kind = vouch(g, unew, Vp, Dr, &Dk);
+        kind = vouch(g, unew, Vp, Dr, 1, &Dk);
         got = keep_plan(g, kind, Dk, Vp);
     }
     if (!got) {
@@ -1011,7 +1157,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
             ffwd_real mid = FR(0.5) * (ua + ub);
             int r = 0;
             if (step_fits(g, mid, lo, hi, vlo, vhi, jerk_bad)) {
-                kind = vouch(g, mid, Vp, Dr, &Dk);
+                kind = vouch(g, mid, Vp, Dr, 0, &Dk);
                 r = keep_plan(g, kind, Dk, Vp);
             }
             if (!r) {

@@ -89,6 +89,7 @@ typedef struct ffwd_gov_slot {     /* one window sample (internal) */
     ffwd_real x_max;               /* largest admissible kappa^2 here */
     ffwd_real x_safe;              /* largest kappa^2 from which rest is reachable in the window */
     ffwd_real x_try, x_plan;       /* the fastest-stop plan's kappa^2 here: tried, stored */
+    ffwd_real u_try, u_plan;       /* and its u on the segment from here */
     ffwd_real vp;                  /* ramp rate the jerk limits allow plan D here (half) */
     ffwd_real dr;                  /* largest constant deceleration the limits allow at rest */
 } ffwd_gov_slot;

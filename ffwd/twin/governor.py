@@ -95,7 +95,7 @@ def hermite_basis(th):
 class Slot:
     """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
     __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe",
-                 "x_try", "x_plan", "vp", "dr")
+                 "x_try", "x_plan", "u_try", "u_plan", "vp", "dr")
 
 
 class GovernorTwin:
@@ -291,6 +291,7 @@ class GovernorTwin:
         sl.x_max = X
         sl.x_safe = 0.0
         sl.x_try = sl.x_plan = 0.0     # the fastest-stop plan's x here (0: at rest)
+        sl.u_try = sl.u_plan = 0.0     # and its u on the segment from here
         # for the constant-deceleration plan: its ramp rate may use half of what the jerk
         # limits allow for this q' (vp); the deceleration every limit allows at rest (dr)
         sl.vp, sl.dr = BIG, BIG
@@ -344,8 +345,11 @@ class GovernorTwin:
         for j in range(self.pieces):
             if j + 1 < len(w):
                 Sj = j * ds
-                Xa, Xb = (w[j].x_plan, w[j + 1].x_plan) if plan else (w[j].x_safe, w[j + 1].x_safe)
-                mj = (Xb - Xa) / ds
+                if plan:        # plan P's line on this segment (it may reach 0 inside)
+                    Xa, mj = w[j].x_plan, 2.0 * w[j].u_plan
+                else:
+                    Xa, Xb = w[j].x_safe, w[j + 1].x_safe
+                    mj = (Xb - Xa) / ds
                 A = 2.0 * e1
                 B = 2.0 * e0 - mj * e1
                 C = x - Xa - mj * (self.sigma + e0 - Sj)
@@ -392,7 +396,7 @@ class GovernorTwin:
         if i >= last:
             return False
         for sl in w:
-            sl.x_try = 0.0
+            sl.x_try = sl.u_try = 0.0
         x, pos, up, first = kap * kap, sig, u, True
         while True:
             s0, s1 = w[i], w[i + 1]
@@ -400,15 +404,20 @@ class GovernorTwin:
             L = self.brake_u(s0, x)
             if first:
                 L = max(L, self.brake_u(s1, x))
-            L = max(L, self.brake_u(s1, max(x + 2.0 * d * L, 0.0)))
+            for _ in range(3):                 # admissible at the segment's end too
+                L1 = self.brake_u(s1, max(x + 2.0 * d * L, 0.0))
+                if L1 <= L:
+                    break
+                L = L1
             xe = x + 2.0 * d * L
             if (abs(L - up) > h or not self.jerk_ok(s0, x, L, (L - up) / dt)
                     or not self.jerk_ok(s0, x, up, (L - up) / dt)):
                 return False
             s0.x_try = x - 2.0 * L * (pos - i * ds)
+            s0.u_try = L
             if xe <= 0.0:
                 return abs(L) <= h
-            if (i + 1 >= last or xe > s1.x_max or self.brake_u(s1, xe) > L
+            if (i + 1 >= last or xe > s1.x_max or self.brake_u(s1, xe) > L + 1e-9 * (1.0 + abs(L))
                     or not self.jerk_ok(s1, xe, L, 0.0)):
                 return False
             s1.x_try = xe
@@ -435,6 +444,23 @@ class GovernorTwin:
             return d
         return min(u + h, 0.0)
 
+    @staticmethod
+    def stop_length(k, u, D, V):
+        """Path length plan D covers to rest in continuous time (u ramps at -V to -D or
+        less, holds, ramps back at +V): a quick test before its cycles are simulated."""
+        D = max(D, -u)
+        F = k + u * abs(u) / (2.0 * V)        # kappa once u is ramped to 0 (u < 0: less)
+        if F <= 0.0:
+            return 0.0
+        um = -D if F >= D * D / V else -sqrt0(V * F)
+        T2 = (F - um * um / V) / -um           # hold at um
+        s = 0.0
+        for T, v in (((u - um) / V, -V), (T2, 0.0), (-um / V, V)):
+            s += k * T + 0.5 * u * T * T + v * T * T * T / 6.0
+            k += u * T + 0.5 * v * T * T
+            u += v * T
+        return s
+
     def plan_decel(self, sig, kap, u, D, Vp, qdd0):
         """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
         Its cycles are simulated; per window segment the box of its cycle states is
@@ -447,9 +473,20 @@ class GovernorTwin:
         nseg = len(w) - 1
         send = nseg * ds
         box = {}
+        if sig + self.stop_length(kap, u, D, Vp) > send:
+            return False                       # it cannot rest inside the window
         s, k, uu = sig, kap, u
         cycles = 0
         while k > 0.0:
+            if uu == -D:                       # holding: skip the middle of the hold
+                m = self.hold_skip(s, k, D, Vp, qp, box)
+                if m < 0:
+                    return False
+                if m > 0:
+                    cycles += m
+                    s += m * k * dt - 0.5 * D * dt * dt * m * m
+                    k -= m * D * dt
+                    continue
             cycles += 1
             if cycles > MAX_PLAN_CYCLES or s > send:
                 return False
@@ -490,6 +527,59 @@ class GovernorTwin:
                 return False
         return True
 
+    def hold_skip(self, s, k, D, Vp, qp, box):
+        """Plan D holding u = -D from (s, kappa): the cycles up to two before the ramp
+        back, at once (x is affine in s along them: x = kappa^2 - 2 D (s' - s)). Their
+        boxes join the segments' and their joint jerk is checked: the first cycle's
+        exactly (interpolated q', q''), the rest by the largest d qdd / ds over the
+        segments they cross times the longest step. Returns the number of cycles
+        skipped (0: none), or -1 if the jerk fails; qp becomes the last cycle's qdd."""
+        dt, ds, w = self.dt, self.ds, self.window
+        keep2 = 1.0 - 2.0 * self.margin
+        m = math.floor(min((k - self.ramp_need(-D, Vp)) / (D * dt), 1e9)) - 2
+        if m < 2:
+            return 0
+        nseg = len(w) - 1
+        x0 = k * k
+        s_last = s + (m - 1) * k * dt - 0.5 * D * dt * dt * (m - 1) * (m - 1)
+        k_last = k - (m - 1) * D * dt
+        if s_last > nseg * ds:
+            return 0                           # beyond the window: the cycles say so
+        i0, i1 = int(s / ds), min(int(s_last / ds), nseg - 1)
+        slope = [0.0] * self.n
+        for i in range(i0, i1 + 1):
+            lo_s, hi_s = max(s, i * ds), min(s_last, (i + 1) * ds)
+            kh = sqrt0(x0 - 2.0 * D * (lo_s - s))
+            kl = sqrt0(x0 - 2.0 * D * (hi_s - s))
+            b = box.get(i)
+            if b is None:
+                box[i] = [kl, kh, -D, -D]
+            else:
+                b[0] = min(b[0], kl); b[1] = max(b[1], kh)
+                b[2] = min(b[2], -D); b[3] = max(b[3], -D)
+            for j in range(self.n):
+                g1 = (w[i + 1].dq[j] - w[i].dq[j]) / ds
+                g2 = (w[i + 1].ddq[j] - w[i].ddq[j]) / ds
+                dd = max(abs(w[i].ddq[j]), abs(w[i + 1].ddq[j]))
+                slope[j] = max(slope[j], abs(g2) * kh * kh + 2.0 * D * dd + D * abs(g1))
+        for j in range(self.n):
+            if self.j_max[j] is None:
+                continue
+            jm = keep2 * self.j_max[j]
+            if slope[j] * k > jm:              # d qdd / ds times ds per cycle (< kappa dt)
+                return -1
+            for ss, kk, first in ((s, k, True), (s_last, k_last, False)):
+                i = min(int(ss / ds), nseg - 1)
+                th = ss / ds - i
+                dq = w[i].dq[j] + th * (w[i + 1].dq[j] - w[i].dq[j])
+                ddq = w[i].ddq[j] + th * (w[i + 1].ddq[j] - w[i].ddq[j])
+                qn = ddq * kk * kk - dq * D
+                if first and abs(qn - qp[j]) > jm * dt:
+                    return -1
+                if not first:
+                    qp[j] = qn
+        return m
+
     def box_fits(self, sl, kl, kh, ul, uh):
         """Every limit of sample sl (twice the margin) over the box of states."""
         keep2 = 1.0 - 2.0 * self.margin
@@ -515,9 +605,10 @@ class GovernorTwin:
                         return False
         return True
 
-    def vouch(self, uc, Vp, Dr):
+    def vouch(self, uc, Vp, Dr, every=True):
         """The braking plan that vouches for applying uc this cycle, or None: the fastest
-        stop (P) if its changes of u fit the rate of rate, else a constant deceleration."""
+        stop (P) if its changes of u fit the rate of rate, else a constant deceleration:
+        the stored one, Dr, Dr/2, Dr/4 (every=False: the first two of these)."""
         dt, kap = self.dt, self.kappa
         h = self.V * dt
         kc = kap + uc * dt
@@ -531,7 +622,8 @@ class GovernorTwin:
         if self.plan_brake(sc, kc, uc, h):
             return ("P",)
         Ds = [self.plan[1]] if self.plan is not None and self.plan[0] == "D" else []
-        for D in Ds + [Dr, 0.5 * Dr, 0.25 * Dr]:
+        Ds = (Ds + [Dr, 0.5 * Dr, 0.25 * Dr])[:4 if every else 2]
+        for D in Ds:
             if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0):
                 return ("D", D, Vp)
         return None
@@ -542,16 +634,24 @@ class GovernorTwin:
             self.plan = plan
             if plan[0] == "P":
                 for sl in self.window:
-                    sl.x_plan = sl.x_try
+                    sl.x_plan, sl.u_plan = sl.x_try, sl.u_try
         return plan
 
     def plan_step(self, x):
         """The stored plan's own u for this cycle."""
-        p, h = self.plan, self.V * self.dt
+        p, h, dt = self.plan, self.V * self.dt, self.dt
         if p is None or p[0] == "rest" or self.kappa <= 0.0:
             return 0.0 if self.kappa <= 0.0 else -self.kappa / self.dt
         if p[0] == "D":
             return self.plan_action(self.kappa, self.u, p[1], p[2])
+        # plan P: its u on this segment (the state is on its line), the landing on the
+        # next segment's line where the cycle crosses a sample
+        u0 = self.window[0].u_plan
+        if self.sigma + self.kappa * dt + 0.5 * dt * dt * u0 < self.ds or self.kappa + u0 * dt <= 0.0:
+            return u0
+        u1 = self.window[1].u_plan
+        if self.kappa + u1 * dt <= 0.0:
+            return u1
         return min(max(self.safety_cap(x, plan=True), self.u - h), self.u + h)
 
     # ---- one control cycle
@@ -706,7 +806,7 @@ class GovernorTwin:
             a, b = ufb, unew
             for _ in range(NBISECT):
                 mid = 0.5 * (a + b)
-                r = self.keep_plan(self.vouch(mid, Vp, Dr)) if fits(mid) else None
+                r = self.keep_plan(self.vouch(mid, Vp, Dr, False)) if fits(mid) else None
                 if r is None:
                     b = mid
                 else:
