@@ -84,6 +84,12 @@ static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
     return &g->slot[i >= g->cfg.horizon ? i - g->cfg.horizon : i];
 }
 
+static const ffwd_gov_slot *slot_at_c(const ffwd_governor *g, uint32_t k)
+{
+    uint32_t i = g->head + k;
+    return &g->slot[i >= g->cfg.horizon ? i - g->cfg.horizon : i];
+}
+
 static int cfg_finite(const ffwd_gov_config *c)
 {
     ffwd_real v[6];
@@ -137,6 +143,9 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->kappa = FR(0);
     g->u = FR(0);
     g->plan = FFWD_GOV_PLAN_REST;
+    g->any_jerk = 0;
+    for (j = 0; j < model->dof; j++)
+        g->any_jerk |= (model->joint[j].has_limits & FFWD_LIM_JERK) != 0u;
     ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
     g->plan_D = FR(0);
     g->plan_Vp = FR(0);
@@ -637,6 +646,26 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
     return 1;
 }
 
+/* q' and q'' of joint j in window segment i where the Hermite basis is H (the step's
+ * quintic interpolation). */
+static void path_d12(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uint32_t j, ffwd_real *d1,
+                     ffwd_real *d2)
+{
+    const ffwd_real ds = g->cfg.ds;
+    const ffwd_gov_slot *s0 = slot_at_c(g, i), *s1 = slot_at_c(g, i + 1u);
+    ffwd_real P[6], v1, v2;
+    P[0] = s0->q[j];
+    P[1] = ds * s0->dq[j];
+    P[2] = ds * ds * s0->ddq[j];
+    P[3] = ds * ds * s1->ddq[j];
+    P[4] = ds * s1->dq[j];
+    P[5] = s1->q[j];
+    v1 = H[1][0] * P[0] + H[1][1] * P[1] + H[1][2] * P[2] + H[1][3] * P[3] + H[1][4] * P[4] + H[1][5] * P[5];
+    v2 = H[2][0] * P[0] + H[2][1] * P[1] + H[2][2] * P[2] + H[2][3] * P[3] + H[2][4] * P[4] + H[2][5] * P[5];
+    *d1 = v1 / ds;
+    *d2 = v2 / (ds * ds);
+}
+
 /* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
  * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Their boxes join the
  * segments' and their joint jerk is checked: the first cycle's exactly (interpolated q',
@@ -700,15 +729,13 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
             return -1;
         for (pass = 0; pass < 2; pass++) {
             ffwd_real ss = pass == 0 ? s : s_last, kk = pass == 0 ? k : k_last, th, dq, ddq, qn;
-            const ffwd_gov_slot *sa, *sb;
+            ffwd_real Hb[4][6];
             i = (uint32_t)(ss / ds);
             if (i > nseg - 1u)
                 i = nseg - 1u;
             th = ss / ds - (ffwd_real)i;
-            sa = slot_at(g, i);
-            sb = slot_at(g, i + 1u);
-            dq = sa->dq[j] + th * (sb->dq[j] - sa->dq[j]);
-            ddq = sa->ddq[j] + th * (sb->ddq[j] - sa->ddq[j]);
+            hermite_basis(th, Hb);
+            path_d12(g, i, Hb, j, &dq, &ddq);
             qn = ddq * kk * kk - dq * D;
             if (pass == 0 && absr(qn - g->pq[j]) > jm * dt)
                 return -1;
@@ -764,8 +791,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     for (j = 0; j < n; j++)
         g->pq[j] = g->qdd0[j];
     while (k > FR(0)) {
-        ffwd_real un, th, *b;
-        const ffwd_gov_slot *sa, *sb;
+        ffwd_real un, th, *b, Hb[4][6];
         if (uu == -D) {                      /* holding: skip the middle of the hold */
             long mk = hold_skip(g, s, k, D, Vp);
             if (mk < 0)
@@ -786,14 +812,14 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         if (i > nseg - 1u)
             i = nseg - 1u;
         th = s / ds - (ffwd_real)i;
-        sa = slot_at(g, i);
-        sb = slot_at(g, i + 1u);
+        if (g->any_jerk)
+            hermite_basis(th, Hb);
         for (j = 0; j < n; j++) {
             const ffwd_joint *J = &g->model->joint[j];
             if (J->has_limits & FFWD_LIM_JERK) {
-                ffwd_real dq = sa->dq[j] + th * (sb->dq[j] - sa->dq[j]);
-                ffwd_real ddq = sa->ddq[j] + th * (sb->ddq[j] - sa->ddq[j]);
-                ffwd_real qn = ddq * k * k + dq * un;
+                ffwd_real dq, ddq, qn;
+                path_d12(g, i, Hb, j, &dq, &ddq);
+                qn = ddq * k * k + dq * un;
                 if (absr(qn - g->pq[j]) > keep2 * J->j_max * dt)
                     return 0;
                 g->pq[j] = qn;
@@ -1204,7 +1230,12 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         kn = kap + unew * dt;
     }
     send = (ffwd_real)(g->count - 1u) * ds;
-    if (sig > send || send - sig <= FR(1e-9) * ds)
+    /* at rest, commanded on, short of the path's end by less than the smallest move the
+     * joint jerk limits allow (a few Vp dt^3, Vp from them): there (q moves by at most
+     * 4 j_max dt^3) */
+    if (sig > send || send - sig <= FR(1e-9) * ds
+        || (kn == FR(0) && g->finished && cmd > FR(0) && Vp < V
+            && send - sig <= FR(8) * Vp * dt * dt * dt))
         sig = send;
     for (k = 0; k <= g->pieces; k++) {
         if (g->count > 1u && sig >= ds) {

@@ -112,6 +112,7 @@ typedef struct ffwd_governor {
     int32_t fault_joint;    /* joint (-1: none) and */
     uint32_t fault_limit;   /* FFWD_LIM_* bit of the limit that cannot be met */
     uint32_t plan;          /* the stored braking plan: FFWD_GOV_PLAN_* (internal) */
+    uint32_t any_jerk;      /* a joint has a jerk limit */
     ffwd_real plan_D, plan_Vp;  /* plan D: deceleration and ramp rate */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
     /* scratch of the plan D check: per window segment the box of the plan's states

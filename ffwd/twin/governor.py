@@ -129,6 +129,7 @@ class GovernorTwin:
         self.a_max = [l.acceleration for l in lim]
         self.j_max = [l.jerk for l in lim]               # None: no jerk limit
         self.pos = [l.position for l in lim]
+        self.any_jerk = any(v is not None for v in self.j_max)
         # inverse dynamics and gravity: the twin's, or those of an ffwd.Dynamics
         if dynamics is None:
             self.inv = lambda q, v, a: inverse_dynamics(robot, q, v, a)
@@ -461,12 +462,22 @@ class GovernorTwin:
             u += v * T
         return s
 
+    def path_d12(self, i, H, j):
+        """q' and q'' of joint j in window segment i where the Hermite basis is H (the
+        step's quintic interpolation)."""
+        ds, s0, s1 = self.ds, self.window[i], self.window[i + 1]
+        P = (s0.q[j], ds * s0.dq[j], ds * ds * s0.ddq[j], ds * ds * s1.ddq[j],
+             ds * s1.dq[j], s1.q[j])
+        v1 = H[1][0] * P[0] + H[1][1] * P[1] + H[1][2] * P[2] + H[1][3] * P[3] + H[1][4] * P[4] + H[1][5] * P[5]
+        v2 = H[2][0] * P[0] + H[2][1] * P[1] + H[2][2] * P[2] + H[2][3] * P[3] + H[2][4] * P[4] + H[2][5] * P[5]
+        return v1 / ds, v2 / (ds * ds)
+
     def plan_decel(self, sig, kap, u, D, Vp, qdd0):
         """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
         Its cycles are simulated; per window segment the box of its cycle states is
         tested at both ends (rows interpolate linearly between samples); the joint jerk
-        per cycle, from qdd0 (the command before the plan) on, with q' and q''
-        interpolated linearly between samples."""
+        per cycle, from qdd0 (the command before the plan) on, with the q' and q'' the
+        commands will have (the path's interpolation)."""
         ds, w, dt = self.ds, self.window, self.dt
         keep2 = 1.0 - 2.0 * self.margin
         qp = list(qdd0)
@@ -493,10 +504,10 @@ class GovernorTwin:
             un = self.plan_action(k, uu, D, Vp)
             i = min(int(s / ds), nseg - 1)
             th = s / ds - i
+            Hb = hermite_basis(th) if self.any_jerk else None
             for j in range(self.n):
                 if self.j_max[j] is not None:
-                    dq = w[i].dq[j] + th * (w[i + 1].dq[j] - w[i].dq[j])
-                    ddq = w[i].ddq[j] + th * (w[i + 1].ddq[j] - w[i].ddq[j])
+                    dq, ddq = self.path_d12(i, Hb, j)
                     qn = ddq * k * k + dq * un
                     if abs(qn - qp[j]) > keep2 * self.j_max[j] * dt:
                         return False
@@ -570,9 +581,7 @@ class GovernorTwin:
                 return -1
             for ss, kk, first in ((s, k, True), (s_last, k_last, False)):
                 i = min(int(ss / ds), nseg - 1)
-                th = ss / ds - i
-                dq = w[i].dq[j] + th * (w[i + 1].dq[j] - w[i].dq[j])
-                ddq = w[i].ddq[j] + th * (w[i + 1].ddq[j] - w[i].ddq[j])
+                dq, ddq = self.path_d12(i, hermite_basis(ss / ds - i), j)
                 qn = ddq * kk * kk - dq * D
                 if first and abs(qn - qp[j]) > jm * dt:
                     return -1
@@ -838,7 +847,12 @@ class GovernorTwin:
             sig = self.sigma + kap * dt + 0.5 * dt * dt * unew
             kn = kap + unew * dt
         send = (len(w) - 1) * ds
-        if sig > send or send - sig <= 1e-9 * ds:
+        # at rest, commanded on, short of the path's end by less than the smallest move the
+        # joint jerk limits allow (a few Vp dt^3, Vp from them): there (q moves by at most
+        # 4 j_max dt^3)
+        if (sig > send or send - sig <= 1e-9 * ds
+                or (kn == 0.0 and self.finished and cmd > 0.0 and Vp < V
+                    and send - sig <= 8.0 * Vp * dt * dt * dt)):
             sig = send
         for _ in range(self.pieces + 1):
             if len(w) > 1 and sig >= ds:
