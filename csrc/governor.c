@@ -539,7 +539,8 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
 {
     const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
     const uint32_t last = g->count - 1u;
-    uint32_t i = (uint32_t)(sig / ds), k;
+    const uint32_t i0 = (uint32_t)(sig / ds);
+    uint32_t i = i0, k;
     ffwd_real x = kap * kap, pos = sig, up = u;
     int first = 1;
     if (i >= last)
@@ -563,6 +564,11 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
         xe = x + FR(2) * d * L;
         if (absr(L - up) > h || !jerk_ok(g, s0, x, L, (L - up) / dt)
             || !jerk_ok(g, s0, x, up, (L - up) / dt))
+            return 0;
+        /* the first cycle may cross into this segment: from u to a u between the first
+         * two segments' (affine rows: checking both ends covers it) */
+        if (i == i0 + 1u && (absr(L - u) > h || !jerk_ok(g, s0, x, L, (L - u) / dt)
+                             || !jerk_ok(g, s0, x, u, (L - u) / dt)))
             return 0;
         s0->x_try = x - FR(2) * L * (pos - (ffwd_real)i * ds);
         s0->u_try = L;

@@ -1,10 +1,11 @@
 """The jerk pass of the offline plan: the time-optimal profile has jumps in s_ddot
-(bang-bang), so unbounded joint jerk. The pass runs the governor's step (the twin,
-ffwd/twin/governor.py) over the whole path with the window as long as the path, the
-command at the plan's top speed and the joint jerk limits: the same machinery that
-keeps every torque, velocity and acceleration limit and the stop-at-the-end bound at
-every cycle, now with the rate of s_ddot bounded by the joint jerk limits. Its result
-is resampled on the plan's grid. Reported in plan.jerk: the method, the duration
+(bang-bang), so unbounded joint jerk. The pass runs the governor over the whole path
+with the command at the plan's top speed and the joint jerk limits: the same machinery
+that keeps every torque, velocity and acceleration limit, the stop-at-the-end bound and
+the joint jerk at every cycle. The C governor (ffwd._governor) when it is built, with a
+window of min(grid + 1, MAX_HORIZON) samples; else the twin (ffwd/twin/governor.py) with
+the window as long as the path (slow: minutes on a 1000-point grid). Its result is
+resampled on the plan's grid. Reported in plan.jerk: the method, the duration
 increase, the worst joint jerk / limit in the time samples, and the cycles where a
 hard limit needed more than the jerk limits allowed (flagged, counted)."""
 from __future__ import annotations
@@ -27,6 +28,24 @@ def jerk_pass(robot, path, plan, rows, sol, dyn, dt=None, margin=0.02, max_cycle
     jm = np.array([j.limits.jerk for j in robot.joints], float)
     dq_max = np.abs(path.dq(s)).max(axis=0)
     V = float(np.min(jm / np.maximum(dq_max, 1e-9)))
+    dq, ddq = path.dq(s), path.ddq(s)
+    from .governor import MAX_HORIZON, Governor, _c_available
+    if _c_available():
+        H = min(N1, MAX_HORIZON)
+        run = Governor(robot, path, horizon=H, dt=dt, ds=ds, override_max=top, rate_max=u_max,
+                       rate_rate_max=V, margin=margin, backend="c").run(top)
+        ts, ss, ov, rate, qdd_t, flags = (np.asarray(v) for v in (
+            run.t, run.s, run.override, run.rate, run.qdd, run.flags))
+        how = f"C governor, window {H} samples"
+    else:
+        ts, ss, ov, rate, qdd_t, flags = _twin_run(robot, s, ds, dt, top, u_max, V, margin,
+                                                   path, dyn, N1, max_cycles)
+        how = "twin, window as long as the path"
+    return _report(robot, path, plan, s, ds, dt, V, margin, jm, ts, ss, ov, rate, qdd_t,
+                   flags, how, dq, ddq, dyn)
+
+
+def _twin_run(robot, s, ds, dt, top, u_max, V, margin, path, dyn, N1, max_cycles):
     gov = twin_gov.GovernorTwin(robot, dt, ds, N1, top, u_max, V, margin,
                                 dynamics=dyn, max_horizon=N1)
     q, dq, ddq, dddq = path.q(s), path.dq(s), path.ddq(s), path.dddq(s)
@@ -50,9 +69,12 @@ def jerk_pass(robot, path, plan, rows, sol, dyn, dt=None, margin=0.02, max_cycle
         flags.append(out["flags"])
         if out["flags"] & twin_gov.DONE:
             break
-    ts, ss, ov, rate = map(np.array, (ts, ss, ov, rate))
-    flags = np.array(flags)
-    qdd_t = np.array(qdd_t)
+    return (np.array(ts), np.array(ss), np.array(ov), np.array(rate), np.array(qdd_t),
+            np.array(flags))
+
+
+def _report(robot, path, plan, s, ds, dt, V, margin, jm, ts, ss, ov, rate, qdd_t, flags, how,
+            dq, ddq, dyn):
     ratio = (np.abs(np.diff(qdd_t, axis=0)) / dt / jm).max(axis=1) if len(ts) > 1 else np.zeros(1)
     jerk_ratio = float(ratio.max())
     unflagged = (flags[1:] & twin_gov.JERK) == 0 if len(ts) > 1 else np.ones(1, bool)
@@ -66,9 +88,9 @@ def jerk_pass(robot, path, plan, rows, sol, dyn, dt=None, margin=0.02, max_cycle
     t[-1] = ts[-1]
     qd = dq * sd[:, None]
     qdd = ddq * (sd * sd)[:, None] + dq * sdd[:, None]
-    tau = np.asarray(dyn.inverse_dynamics(q, qd, qdd))
+    tau = np.asarray(dyn.inverse_dynamics(path.q(s), qd, qdd))
     plan.jerk = {
-        "method": "jerk-bounded governor pass over the whole path (twin), resampled on the grid",
+        "method": f"jerk-bounded governor pass over the whole path ({how}), resampled on the grid",
         "dt_s": dt,
         "rate_rate_max": V,
         "time_optimal_duration_s": plan.duration,

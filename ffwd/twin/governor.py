@@ -9,7 +9,10 @@ Every limit is a row  alpha u + beta x + gamma kappa + delta <= 0, i.e. an inter
 for each kappa. Per sample (push): its rows and X, the largest admissible x there. Per
 cycle (step): a backward pass gives the safe curve Xs over the window (x = 0 at its last
 sample: the robot can always stop inside the window); u follows the command with
-bounded rate and rate of rate, clipped into the limits and under the safe curve.
+bounded rate and rate of rate, clipped into the limits and under the safe curve; and u
+is applied only if a braking plan from where it leads is verified to reach rest in the
+window within every limit, the rate of rate and the joint jerk (the fastest stop, P, or
+a jerk-ramped constant deceleration, D), else the stored plan's own u (see vouch).
 
     g = GovernorTwin(robot, dt, ds, horizon, override_max, rate_max, rate_rate_max, margin)
     g.push(q, dq, ddq, dddq); ...; g.finish()
@@ -393,7 +396,7 @@ class GovernorTwin:
         Writes the plan's x per sample into x_try (0 after rest); True if it holds."""
         w, ds, dt = self.window, self.ds, self.dt
         last = len(w) - 1
-        i = int(sig / ds)
+        i = i0 = int(sig / ds)
         if i >= last:
             return False
         for sl in w:
@@ -413,6 +416,11 @@ class GovernorTwin:
             xe = x + 2.0 * d * L
             if (abs(L - up) > h or not self.jerk_ok(s0, x, L, (L - up) / dt)
                     or not self.jerk_ok(s0, x, up, (L - up) / dt)):
+                return False
+            # the first cycle may cross into this segment: from u to a u between the
+            # first two segments' (affine rows: checking both ends covers it)
+            if i == i0 + 1 and (abs(L - u) > h or not self.jerk_ok(s0, x, L, (L - u) / dt)
+                                or not self.jerk_ok(s0, x, u, (L - u) / dt)):
                 return False
             s0.x_try = x - 2.0 * L * (pos - i * ds)
             s0.u_try = L
