@@ -435,6 +435,18 @@ static void backward_pass(ffwd_governor *g)
     g->dirty = 0;
 }
 
+/* The Hermite data of joint j between two samples: p0, v0, w0, w1, v1, p1 (scaled by ds). */
+static void hermite_points(const ffwd_gov_slot *s0, const ffwd_gov_slot *s1, uint32_t j, ffwd_real ds,
+                           ffwd_real P[6])
+{
+    P[0] = s0->q[j];
+    P[1] = ds * s0->dq[j];
+    P[2] = ds * ds * s0->ddq[j];
+    P[3] = ds * ds * s1->ddq[j];
+    P[4] = ds * s1->dq[j];
+    P[5] = s1->q[j];
+}
+
 /* Quintic Hermite basis (value, d/dth, d2, d3) at th for p0, v0, w0, w1, v1, p1. */
 static void hermite_basis(ffwd_real th, ffwd_real H[4][6])
 {
@@ -531,6 +543,48 @@ static int jerk_ok(const ffwd_governor *g, const ffwd_gov_slot *sl, ffwd_real x,
     return 1;
 }
 
+/* q', q'' and q''' of joint j in window segment i where the Hermite basis is H (the
+ * step's quintic interpolation) into d[0..2]. */
+static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uint32_t j, ffwd_real *d)
+{
+    const ffwd_real ds = g->cfg.ds;
+    const ffwd_gov_slot *s0 = slot_at_c(g, i), *s1 = slot_at_c(g, i + 1u);
+    ffwd_real P[6], v[3];
+    uint32_t r;
+    hermite_points(s0, s1, j, ds, P);
+    for (r = 0; r < 3u; r++)
+        v[r] = H[r + 1][0] * P[0] + H[r + 1][1] * P[1] + H[r + 1][2] * P[2] + H[r + 1][3] * P[3]
+               + H[r + 1][4] * P[4] + H[r + 1][5] * P[5];
+    d[0] = v[0] / ds;
+    d[1] = v[1] / (ds * ds);
+    d[2] = v[2] / (ds * ds * ds);
+}
+
+/* The joint jerk limits (twice the margin) for a change of u from u0 to u1 in one cycle at
+ * pos (in window segment i), with the path's q', q'', q''' there. */
+static int jump_ok(const ffwd_governor *g, uint32_t i, ffwd_real pos, ffwd_real x, ffwd_real u0,
+                   ffwd_real u1)
+{
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin, k = sqrt0(x), v = (u1 - u0) / g->cfg.dt;
+    ffwd_real H[4][6], d[3];
+    uint32_t j, c;
+    if (!g->any_jerk)
+        return 1;
+    hermite_basis(minr(maxr(pos / g->cfg.ds - (ffwd_real)i, FR(0)), FR(1)), H);
+    for (j = 0; j < g->model->dof; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        if (!(J->has_limits & FFWD_LIM_JERK))
+            continue;
+        path_d123(g, i, H, j, d);
+        for (c = 0; c < 2u; c++) {
+            ffwd_real uu = c == 0u ? u0 : u1;
+            if (absr(d[2] * x * k + FR(3) * d[1] * k * uu + d[0] * v) > keep2 * J->j_max)
+                return 0;
+        }
+    }
+    return 1;
+}
+
 /* Plan P: brake at each sample's smallest admissible u (the fastest stop, what the safe
  * curve assumes) from (sig, kap) after a cycle at u; the changes of u at the samples and
  * the last one, to rest, must each fit in one cycle's rate of rate h. Writes the plan's
@@ -562,13 +616,22 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
             L = L1;
         }
         xe = x + FR(2) * d * L;
-        if (absr(L - up) > h || !jerk_ok(g, s0, x, L, (L - up) / dt)
-            || !jerk_ok(g, s0, x, up, (L - up) / dt))
+        /* the change of u here, at the anchor or at the sample (where the cycle that
+         * crosses it starts, up to kappa dt before: both ends) */
+        if (absr(L - up) > h)
+            return 0;
+        if (first) {
+            if (!jump_ok(g, i, pos, x, up, L))
+                return 0;
+        } else if (!(jump_ok(g, i, pos, x, up, L) && jump_ok(g, i - 1u, pos - sqrt0(x) * dt, x, up, L))) {
+            return 0;
+        }
+        if (!jump_ok(g, i, pos, x, L, L))     /* holding L from the segment's start */
             return 0;
         /* the first cycle may cross into this segment: from u to a u between the first
          * two segments' (affine rows: checking both ends covers it) */
-        if (i == i0 + 1u && (absr(L - u) > h || !jerk_ok(g, s0, x, L, (L - u) / dt)
-                             || !jerk_ok(g, s0, x, u, (L - u) / dt)))
+        if (i == i0 + 1u && (absr(L - u) > h || !jump_ok(g, i, pos, x, u, L)
+                             || !jump_ok(g, i - 1u, pos - sqrt0(x) * dt, x, u, L)))
             return 0;
         s0->x_try = x - FR(2) * L * (pos - (ffwd_real)i * ds);
         s0->u_try = L;
@@ -652,25 +715,6 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
     return 1;
 }
 
-/* q' and q'' of joint j in window segment i where the Hermite basis is H (the step's
- * quintic interpolation). */
-static void path_d12(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uint32_t j, ffwd_real *d1,
-                     ffwd_real *d2)
-{
-    const ffwd_real ds = g->cfg.ds;
-    const ffwd_gov_slot *s0 = slot_at_c(g, i), *s1 = slot_at_c(g, i + 1u);
-    ffwd_real P[6], v1, v2;
-    P[0] = s0->q[j];
-    P[1] = ds * s0->dq[j];
-    P[2] = ds * ds * s0->ddq[j];
-    P[3] = ds * ds * s1->ddq[j];
-    P[4] = ds * s1->dq[j];
-    P[5] = s1->q[j];
-    v1 = H[1][0] * P[0] + H[1][1] * P[1] + H[1][2] * P[2] + H[1][3] * P[3] + H[1][4] * P[4] + H[1][5] * P[5];
-    v2 = H[2][0] * P[0] + H[2][1] * P[1] + H[2][2] * P[2] + H[2][3] * P[3] + H[2][4] * P[4] + H[2][5] * P[5];
-    *d1 = v1 / ds;
-    *d2 = v2 / (ds * ds);
-}
 
 /* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
  * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Their boxes join the
@@ -734,15 +778,15 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
         if (slope[j] * k > jm)               /* d qdd / ds times ds per cycle (< kappa dt) */
             return -1;
         for (pass = 0; pass < 2; pass++) {
-            ffwd_real ss = pass == 0 ? s : s_last, kk = pass == 0 ? k : k_last, th, dq, ddq, qn;
+            ffwd_real ss = pass == 0 ? s : s_last, kk = pass == 0 ? k : k_last, th, dd[3], qn;
             ffwd_real Hb[4][6];
             i = (uint32_t)(ss / ds);
             if (i > nseg - 1u)
                 i = nseg - 1u;
             th = ss / ds - (ffwd_real)i;
             hermite_basis(th, Hb);
-            path_d12(g, i, Hb, j, &dq, &ddq);
-            qn = ddq * kk * kk - dq * D;
+            path_d123(g, i, Hb, j, dd);
+            qn = dd[1] * kk * kk - dd[0] * D;
             if (pass == 0 && absr(qn - g->pq[j]) > jm * dt)
                 return -1;
             if (pass == 1)
@@ -823,9 +867,9 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         for (j = 0; j < n; j++) {
             const ffwd_joint *J = &g->model->joint[j];
             if (J->has_limits & FFWD_LIM_JERK) {
-                ffwd_real dq, ddq, qn;
-                path_d12(g, i, Hb, j, &dq, &ddq);
-                qn = ddq * k * k + dq * un;
+                ffwd_real dd[3], qn;
+                path_d123(g, i, Hb, j, dd);
+                qn = dd[1] * k * k + dd[0] * un;
                 if (absr(qn - g->pq[j]) > keep2 * J->j_max * dt)
                     return 0;
                 g->pq[j] = qn;
@@ -1023,12 +1067,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         ffwd_real P[6];
         ffwd_real val[4];
         uint32_t r;
-        P[0] = s0->q[j];
-        P[1] = ds * s0->dq[j];
-        P[2] = ds * ds * s0->ddq[j];
-        P[3] = ds * ds * s1->ddq[j];
-        P[4] = ds * s1->dq[j];
-        P[5] = s1->q[j];
+        hermite_points(s0, s1, j, ds, P);
         for (r = 0; r < 4u; r++)
             val[r] = H[r][0] * P[0] + H[r][1] * P[1] + H[r][2] * P[2] + H[r][3] * P[3]
                      + H[r][4] * P[4] + H[r][5] * P[5];

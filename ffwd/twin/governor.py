@@ -73,6 +73,12 @@ def xroot(A, B, C):
     return r * r
 
 
+def hermite_points(s0, s1, j, ds):
+    """The Hermite data of joint j between two samples: p0, v0, w0, w1, v1, p1 (scaled)."""
+    return (s0.q[j], ds * s0.dq[j], ds * ds * s0.ddq[j], ds * ds * s1.ddq[j],
+            ds * s1.dq[j], s1.q[j])
+
+
 def hermite_basis(th):
     """Quintic Hermite basis on [0, 1] for (p0, v0, w0, w1, v1, p1): rows value, d/dth, d2, d3."""
     t2 = th * th
@@ -389,6 +395,22 @@ class GovernorTwin:
                     return False
         return True
 
+    def jump_ok(self, i, pos, x, u0, u1):
+        """The joint jerk limits (twice the margin) for a change of u from u0 to u1 in one
+        cycle at pos (in window segment i), with the path's q', q'', q''' there."""
+        if not self.any_jerk:
+            return True
+        keep2 = 1.0 - 2.0 * self.margin
+        k, v = sqrt0(x), (u1 - u0) / self.dt
+        H = hermite_basis(min(max(pos / self.ds - i, 0.0), 1.0))
+        for j in range(self.n):
+            if self.j_max[j] is not None:
+                d1, d2, d3 = self.path_d123(i, H, j)
+                for uu in (u0, u1):
+                    if abs(d3 * x * k + 3.0 * d2 * k * uu + d1 * v) > keep2 * self.j_max[j]:
+                        return False
+        return True
+
     def plan_brake(self, sig, kap, u, h):
         """Plan P: brake at each sample's smallest admissible u (the fastest stop, what the
         safe curve assumes) from (sig, kappa) after a cycle at u; the changes of u at the
@@ -414,13 +436,22 @@ class GovernorTwin:
                     break
                 L = L1
             xe = x + 2.0 * d * L
-            if (abs(L - up) > h or not self.jerk_ok(s0, x, L, (L - up) / dt)
-                    or not self.jerk_ok(s0, x, up, (L - up) / dt)):
+            # the change of u here, at the anchor or at the sample (where the cycle that
+            # crosses it starts, up to kappa dt before: both ends)
+            if abs(L - up) > h:
+                return False
+            if first:
+                if not self.jump_ok(i, pos, x, up, L):
+                    return False
+            elif not (self.jump_ok(i, pos, x, up, L)
+                      and self.jump_ok(i - 1, pos - sqrt0(x) * dt, x, up, L)):
+                return False
+            if not self.jump_ok(i, pos, x, L, L):      # holding L from the segment's start
                 return False
             # the first cycle may cross into this segment: from u to a u between the
             # first two segments' (affine rows: checking both ends covers it)
-            if i == i0 + 1 and (abs(L - u) > h or not self.jerk_ok(s0, x, L, (L - u) / dt)
-                                or not self.jerk_ok(s0, x, u, (L - u) / dt)):
+            if i == i0 + 1 and (abs(L - u) > h or not self.jump_ok(i, pos, x, u, L)
+                                or not self.jump_ok(i - 1, pos - sqrt0(x) * dt, x, u, L)):
                 return False
             s0.x_try = x - 2.0 * L * (pos - i * ds)
             s0.u_try = L
@@ -470,15 +501,14 @@ class GovernorTwin:
             u += v * T
         return s
 
-    def path_d12(self, i, H, j):
-        """q' and q'' of joint j in window segment i where the Hermite basis is H (the
-        step's quintic interpolation)."""
-        ds, s0, s1 = self.ds, self.window[i], self.window[i + 1]
-        P = (s0.q[j], ds * s0.dq[j], ds * ds * s0.ddq[j], ds * ds * s1.ddq[j],
-             ds * s1.dq[j], s1.q[j])
-        v1 = H[1][0] * P[0] + H[1][1] * P[1] + H[1][2] * P[2] + H[1][3] * P[3] + H[1][4] * P[4] + H[1][5] * P[5]
-        v2 = H[2][0] * P[0] + H[2][1] * P[1] + H[2][2] * P[2] + H[2][3] * P[3] + H[2][4] * P[4] + H[2][5] * P[5]
-        return v1 / ds, v2 / (ds * ds)
+    def path_d123(self, i, H, j):
+        """q', q'' and q''' of joint j in window segment i where the Hermite basis is H
+        (the step's quintic interpolation)."""
+        ds = self.ds
+        P = hermite_points(self.window[i], self.window[i + 1], j, ds)
+        v = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3] + Hr[4] * P[4] + Hr[5] * P[5]
+             for Hr in H[1:]]
+        return v[0] / ds, v[1] / (ds * ds), v[2] / (ds * ds * ds)
 
     def plan_decel(self, sig, kap, u, D, Vp, qdd0):
         """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
@@ -515,7 +545,7 @@ class GovernorTwin:
             Hb = hermite_basis(th) if self.any_jerk else None
             for j in range(self.n):
                 if self.j_max[j] is not None:
-                    dq, ddq = self.path_d12(i, Hb, j)
+                    dq, ddq, _ = self.path_d123(i, Hb, j)
                     qn = ddq * k * k + dq * un
                     if abs(qn - qp[j]) > keep2 * self.j_max[j] * dt:
                         return False
@@ -589,7 +619,7 @@ class GovernorTwin:
                 return -1
             for ss, kk, first in ((s, k, True), (s_last, k_last, False)):
                 i = min(int(ss / ds), nseg - 1)
-                dq, ddq = self.path_d12(i, hermite_basis(ss / ds - i), j)
+                dq, ddq, _ = self.path_d123(i, hermite_basis(ss / ds - i), j)
                 qn = ddq * kk * kk - dq * D
                 if first and abs(qn - qp[j]) > jm * dt:
                     return -1
@@ -697,8 +727,7 @@ class GovernorTwin:
         H = hermite_basis(th)
         q, d1, d2, d3 = ([0.0] * n for _ in range(4))
         for j in range(n):                       # the path between the two samples
-            P = (s0.q[j], ds * s0.dq[j], ds * ds * s0.ddq[j], ds * ds * s1.ddq[j],
-                 ds * s1.dq[j], s1.q[j])
+            P = hermite_points(s0, s1, j, ds)
             val = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3]
                    + Hr[4] * P[4] + Hr[5] * P[5] for Hr in H]
             q[j] = val[0]
