@@ -670,7 +670,7 @@ static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u,
     ffwd_real d, kn;
     if (kap <= FR(0))
         return FR(0);
-    if (kap <= h * dt && kap <= D * dt && -kap / dt >= u - h)
+    if (kap <= h * dt && kap <= D * dt && -kap / dt >= u - h && -kap / dt <= u + h)
         return -kap / dt;                       /* rest at the end of this cycle */
     d = u > -D ? maxr(u - h, -D) : minr(u + h, -D);
     kn = kap + d * dt;

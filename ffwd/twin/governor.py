@@ -476,7 +476,7 @@ class GovernorTwin:
         dt, h = self.dt, Vp * self.dt
         if kap <= 0.0:
             return 0.0
-        if kap <= h * dt and kap <= D * dt and -kap / dt >= u - h:
+        if kap <= h * dt and kap <= D * dt and u - h <= -kap / dt <= u + h:
             return -kap / dt                      # rest at the end of this cycle
         d = max(u - h, -D) if u > -D else min(u + h, -D)
         kn = kap + d * dt
