@@ -52,7 +52,12 @@ def plot_phase_plane(plan, path):
     ax.plot(plan.s, np.minimum(lim, top * 1.05), color="r", lw=1, label="limit curve (largest admissible)")
     ax.plot(plan.s, np.sqrt(plan.x_safe), color="tab:blue", ls="--", lw=1,
             label="controllable curve (can still stop at the end)")
-    ax.plot(plan.s, plan.sd, color="k", lw=1.6, label="time-optimal profile")
+    jerk = getattr(plan, "jerk", None) or {}
+    label = "time-optimal profile"
+    if "time_optimal_duration_s" in jerk:
+        label = (f"jerk-bounded profile (time-optimal without the jerk limits: "
+                 f"{jerk['time_optimal_duration_s']:.3f} s)")
+    ax.plot(plan.s, plan.sd, color="k", lw=1.6, label=label)
     ax.set_ylim(0, top)
     ax.set_xlabel("s (nominal time) [s]")
     ax.set_ylabel("s_dot (override)")
