@@ -78,16 +78,15 @@ static inline ffwd_real xroot(ffwd_real A, ffwd_real B, ffwd_real C)
     return r * r;
 }
 
-static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
+static const ffwd_gov_slot *slot_at_c(const ffwd_governor *g, uint32_t k)
 {
     uint32_t i = g->head + k;     /* head, k < horizon: one wrap at most */
     return &g->slot[i >= g->cfg.horizon ? i - g->cfg.horizon : i];
 }
 
-static const ffwd_gov_slot *slot_at_c(const ffwd_governor *g, uint32_t k)
+static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
 {
-    uint32_t i = g->head + k;
-    return &g->slot[i >= g->cfg.horizon ? i - g->cfg.horizon : i];
+    return (ffwd_gov_slot *)slot_at_c(g, k);   /* g is not const: the slot may be written */
 }
 
 static int cfg_finite(const ffwd_gov_config *c)
@@ -1002,7 +1001,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     const ffwd_model *m;
     ffwd_gov_slot *s0, *s1;
     ffwd_real H[4][6];
-    ffwd_real *d1, *d2, *d3, *tau0, *ta, *gq, *zq;
+    ffwd_real *d1, *d2, *tau0, *ta, *gq, *zq;
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
     ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss, hic, Vp, Dr, Dk = FR(0);
     uint32_t n, j, k, flags = 0, jerk_bad = 0;
@@ -1028,7 +1027,6 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     n = m->dof;
     d1 = g->d1;
     d2 = g->d2;
-    d3 = g->d3;
     tau0 = g->tau0;
     ta = g->ta;
     gq = g->gq;
@@ -1065,16 +1063,15 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     hermite_basis(th, H);
     for (j = 0; j < n; j++) {
         ffwd_real P[6];
-        ffwd_real val[4];
+        ffwd_real val[3];
         uint32_t r;
         hermite_points(s0, s1, j, ds, P);
-        for (r = 0; r < 4u; r++)
+        for (r = 0; r < 3u; r++)
             val[r] = H[r][0] * P[0] + H[r][1] * P[1] + H[r][2] * P[2] + H[r][3] * P[3]
                      + H[r][4] * P[4] + H[r][5] * P[5];
         out->q[j] = val[0];
         d1[j] = val[1] / ds;
         d2[j] = val[2] / (ds * ds);
-        d3[j] = val[3] / (ds * ds * ds);
     }
     kap = g->kappa;
     x = kap * kap;

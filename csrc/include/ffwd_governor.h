@@ -127,7 +127,7 @@ typedef struct ffwd_governor {
     ffwd_real uB[FFWD_GOV_COLS], uG[FFWD_GOV_COLS], uD[FFWD_GOV_COLS];
     /* scratch of ffwd_governor_step (path derivatives and torques at the current point),
      * also used by ffwd_governor_push */
-    ffwd_real d1[FFWD_MAX_DOF], d2[FFWD_MAX_DOF], d3[FFWD_MAX_DOF];
+    ffwd_real d1[FFWD_MAX_DOF], d2[FFWD_MAX_DOF];
     ffwd_real tau0[FFWD_MAX_DOF], ta[FFWD_MAX_DOF], gq[FFWD_MAX_DOF], zq[FFWD_MAX_DOF];
 } ffwd_governor;
 

@@ -725,15 +725,14 @@ class GovernorTwin:
         s1 = w[1]
         th = self.sigma / ds
         H = hermite_basis(th)
-        q, d1, d2, d3 = ([0.0] * n for _ in range(4))
+        q, d1, d2 = ([0.0] * n for _ in range(3))
         for j in range(n):                       # the path between the two samples
             P = hermite_points(s0, s1, j, ds)
             val = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3]
-                   + Hr[4] * P[4] + Hr[5] * P[5] for Hr in H]
+                   + Hr[4] * P[4] + Hr[5] * P[5] for Hr in H[:3]]
             q[j] = val[0]
             d1[j] = val[1] / ds
             d2[j] = val[2] / (ds * ds)
-            d3[j] = val[3] / (ds * ds * ds)
         kap = self.kappa
         x = kap * kap
         flags = 0
