@@ -143,6 +143,7 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->u = FR(0);
     g->plan = FFWD_GOV_PLAN_REST;
     g->any_jerk = 0;
+    g->pc_seg = FFWD_GOV_MAX_HORIZON;
     for (j = 0; j < model->dof; j++)
         g->any_jerk |= (model->joint[j].has_limits & FFWD_LIM_JERK) != 0u;
     ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
@@ -559,6 +560,38 @@ static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uin
     d[2] = v[2] / (ds * ds * ds);
 }
 
+/* The coefficients of q' and q'' of every jerk-limited joint over window segment i as
+ * polynomials in th (the step's quintic Hermite interpolation, expanded once per
+ * segment: q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5). */
+static void seg_poly(ffwd_governor *g, uint32_t i)
+{
+    const ffwd_real ds = g->cfg.ds, i1 = FR(1) / ds, i2 = i1 * i1;
+    const ffwd_gov_slot *s0 = slot_at_c(g, i), *s1 = slot_at_c(g, i + 1u);
+    uint32_t j;
+    if (g->pc_seg == i)
+        return;
+    g->pc_seg = i;
+    for (j = 0; j < g->model->dof; j++) {
+        ffwd_real P[6], dp, a3, a4, a5;
+        if (!(g->model->joint[j].has_limits & FFWD_LIM_JERK))
+            continue;
+        hermite_points(s0, s1, j, ds, P);
+        dp = P[5] - P[0];
+        a3 = FR(10) * dp - FR(6) * P[1] - FR(4) * P[4] - FR(1.5) * P[2] + FR(0.5) * P[3];
+        a4 = FR(-15) * dp + FR(8) * P[1] + FR(7) * P[4] + FR(1.5) * P[2] - P[3];
+        a5 = FR(6) * dp - FR(3) * P[1] - FR(3) * P[4] - FR(0.5) * P[2] + FR(0.5) * P[3];
+        g->pc1[j][0] = P[1] * i1;
+        g->pc1[j][1] = P[2] * i1;
+        g->pc1[j][2] = FR(3) * a3 * i1;
+        g->pc1[j][3] = FR(4) * a4 * i1;
+        g->pc1[j][4] = FR(5) * a5 * i1;
+        g->pc2[j][0] = P[2] * i2;
+        g->pc2[j][1] = FR(6) * a3 * i2;
+        g->pc2[j][2] = FR(12) * a4 * i2;
+        g->pc2[j][3] = FR(20) * a5 * i2;
+    }
+}
+
 /* The joint jerk limits (twice the margin) for a change of u from u0 to u1 in one cycle at
  * pos (in window segment i), with the path's q', q'', q''' there. */
 static int jump_ok(const ffwd_governor *g, uint32_t i, ffwd_real pos, ffwd_real x, ffwd_real u0,
@@ -839,8 +872,9 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         g->box_used[i] = 0;
     for (j = 0; j < n; j++)
         g->pq[j] = g->qdd0[j];
+    g->pc_seg = FFWD_GOV_MAX_HORIZON;
     while (k > FR(0)) {
-        ffwd_real un, th, *b, Hb[4][6];
+        ffwd_real un, th, *b;
         if (uu == -D) {                      /* holding: skip the middle of the hold */
             long mk = hold_skip(g, s, k, D, Vp);
             if (mk < 0)
@@ -862,13 +896,14 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
             i = nseg - 1u;
         th = s / ds - (ffwd_real)i;
         if (g->any_jerk)
-            hermite_basis(th, Hb);
+            seg_poly(g, i);
         for (j = 0; j < n; j++) {
             const ffwd_joint *J = &g->model->joint[j];
             if (J->has_limits & FFWD_LIM_JERK) {
-                ffwd_real dd[3], qn;
-                path_d123(g, i, Hb, j, dd);
-                qn = dd[1] * k * k + dd[0] * un;
+                const ffwd_real *c1 = g->pc1[j], *c2 = g->pc2[j];
+                ffwd_real q1 = (((c1[4] * th + c1[3]) * th + c1[2]) * th + c1[1]) * th + c1[0];
+                ffwd_real q2 = ((c2[3] * th + c2[2]) * th + c2[1]) * th + c2[0];
+                ffwd_real qn = q2 * k * k + q1 * un;
                 if (absr(qn - g->pq[j]) > keep2 * J->j_max * dt)
                     return 0;
                 g->pq[j] = qn;
@@ -905,10 +940,25 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         if ((g->model->joint[j].has_limits & FFWD_LIM_JERK)
             && absr(g->pq[j]) > keep2 * g->model->joint[j].j_max * dt)
             return 0;
-    for (i = 0; i < nseg; i++)
-        if (g->box_used[i] && !(box_fits(g, slot_at(g, i), g->box[i])
-                                && box_fits(g, slot_at(g, i + 1u), g->box[i])))
+    /* each sample once, with the box joining the two segments it ends (rows are affine
+     * between samples: both ends of a segment cover it) */
+    for (i = 0; i <= nseg; i++) {
+        const int l = i > 0u && g->box_used[i - 1u], r = i < nseg && g->box_used[i];
+        ffwd_real bb[4];
+        if (!l && !r)
+            continue;
+        if (l && r) {
+            const ffwd_real *p = g->box[i - 1u], *q = g->box[i];
+            bb[0] = minr(p[0], q[0]);
+            bb[1] = maxr(p[1], q[1]);
+            bb[2] = minr(p[2], q[2]);
+            bb[3] = maxr(p[3], q[3]);
+        } else {
+            memcpy(bb, g->box[l ? i - 1u : i], sizeof bb);
+        }
+        if (!box_fits(g, slot_at(g, i), bb))
             return 0;
+    }
     return 1;
 }
 

@@ -121,6 +121,10 @@ typedef struct ffwd_governor {
     ffwd_real box[FFWD_GOV_MAX_HORIZON][4];
     ffwd_real qdd0[FFWD_MAX_DOF], pq[FFWD_MAX_DOF];
     uint8_t box_used[FFWD_GOV_MAX_HORIZON];
+    /* q' and q'' of window segment pc_seg as polynomials in its fraction th (per joint,
+     * constant term first; pc_seg = FFWD_GOV_MAX_HORIZON: none) */
+    ffwd_real pc1[FFWD_MAX_DOF][5], pc2[FFWD_MAX_DOF][4];
+    uint32_t pc_seg;
     /* scratch of ffwd_governor_push (kept here, off the stack): the rows' lower and
      * upper bounds of u, u >= lB x + lG kappa + lD and u <= uB x + uG kappa + uD */
     ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];

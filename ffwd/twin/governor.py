@@ -510,6 +510,26 @@ class GovernorTwin:
              for Hr in H[1:]]
         return v[0] / ds, v[1] / (ds * ds), v[2] / (ds * ds * ds)
 
+    def seg_poly(self, i):
+        """q' and q'' of every jerk-limited joint over window segment i as polynomials in
+        th (coefficients, constant term first): the quintic Hermite expanded,
+        q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5."""
+        ds = self.ds
+        i1 = 1.0 / ds
+        i2 = i1 * i1
+        c1, c2 = {}, {}
+        for j in range(self.n):
+            if self.j_max[j] is None:
+                continue
+            p0, v0, w0, w1, v1, p1 = hermite_points(self.window[i], self.window[i + 1], j, ds)
+            dp = p1 - p0
+            a3 = 10.0 * dp - 6.0 * v0 - 4.0 * v1 - 1.5 * w0 + 0.5 * w1
+            a4 = -15.0 * dp + 8.0 * v0 + 7.0 * v1 + 1.5 * w0 - w1
+            a5 = 6.0 * dp - 3.0 * v0 - 3.0 * v1 - 0.5 * w0 + 0.5 * w1
+            c1[j] = (v0 * i1, w0 * i1, 3.0 * a3 * i1, 4.0 * a4 * i1, 5.0 * a5 * i1)
+            c2[j] = (w0 * i2, 6.0 * a3 * i2, 12.0 * a4 * i2, 20.0 * a5 * i2)
+        return c1, c2
+
     def plan_decel(self, sig, kap, u, D, Vp, qdd0):
         """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
         Its cycles are simulated; per window segment the box of its cycle states is
@@ -526,6 +546,7 @@ class GovernorTwin:
             return False                       # it cannot rest inside the window
         s, k, uu = sig, kap, u
         cycles = 0
+        poly_seg = None
         while k > 0.0:
             if uu == -D:                       # holding: skip the middle of the hold
                 m = self.hold_skip(s, k, D, Vp, qp, box)
@@ -542,10 +563,13 @@ class GovernorTwin:
             un = self.plan_action(k, uu, D, Vp)
             i = min(int(s / ds), nseg - 1)
             th = s / ds - i
-            Hb = hermite_basis(th) if self.any_jerk else None
+            if self.any_jerk and i != poly_seg:
+                poly_seg, (c1, c2) = i, self.seg_poly(i)
             for j in range(self.n):
                 if self.j_max[j] is not None:
-                    dq, ddq, _ = self.path_d123(i, Hb, j)
+                    a, b = c1[j], c2[j]
+                    dq = (((a[4] * th + a[3]) * th + a[2]) * th + a[1]) * th + a[0]
+                    ddq = ((b[3] * th + b[2]) * th + b[1]) * th + b[0]
                     qn = ddq * k * k + dq * un
                     if abs(qn - qp[j]) > keep2 * self.j_max[j] * dt:
                         return False
@@ -571,9 +595,15 @@ class GovernorTwin:
         for j in range(self.n):                    # at rest the command's qdd is 0
             if self.j_max[j] is not None and abs(qp[j]) > keep2 * self.j_max[j] * dt:
                 return False
-        for i, (kl, kh, ul, uh) in box.items():
-            if not (self.box_fits(w[i], kl, kh, ul, uh) and self.box_fits(w[i + 1], kl, kh, ul, uh)):
-                return False
+        # each sample once, with the box joining the two segments it ends (rows are
+        # affine between samples: both ends of a segment cover it)
+        for i in range(nseg + 1):
+            near = [box[m] for m in (i - 1, i) if m in box]
+            if near:
+                kl, kh = min(b[0] for b in near), max(b[1] for b in near)
+                ul, uh = min(b[2] for b in near), max(b[3] for b in near)
+                if not self.box_fits(w[i], kl, kh, ul, uh):
+                    return False
         return True
 
     def hold_skip(self, s, k, D, Vp, qp, box):
