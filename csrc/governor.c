@@ -19,6 +19,7 @@
 #define ALPHA_TOL FR(1e-12)
 #define REST_TOL FR(1e-12)
 #define GOV_BISECT 4u   /* halvings between the stored plan's u and the step's */
+#define GOV_FIT_ITER 20u  /* halvings of stop_fit_u */
 
 #if defined(__GNUC__) || defined(__clang__)
 #ifdef FFWD_SINGLE
@@ -182,6 +183,8 @@ static ffwd_status push_fault(ffwd_governor *g, int32_t joint, uint32_t limit)
     g->fault_limit = limit;
     return FFWD_E_INFEASIBLE;
 }
+
+static void seg_bounds(const ffwd_governor *g, ffwd_gov_slot *s0, const ffwd_gov_slot *s1);
 
 ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_real *dq,
                                const ffwd_real *ddq, const ffwd_real *dddq)
@@ -398,6 +401,11 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
         if (d > FR(0))
             sl->dr = minr(sl->dr, keep * J->a_max / d);
     }
+    ffwd_zero_(sl->jb[0], FFWD_MAX_DOF);
+    ffwd_zero_(sl->jb[1], FFWD_MAX_DOF);
+    ffwd_zero_(sl->jb[2], FFWD_MAX_DOF);
+    if (g->count > 0u)
+        seg_bounds(g, slot_at(g, g->count - 1u), sl);
     g->count++;
     g->pushed++;
     g->dirty = 1;
@@ -563,6 +571,33 @@ static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uin
 /* The coefficients of q' and q'' of every jerk-limited joint over window segment i as
  * polynomials in th (the step's quintic Hermite interpolation, expanded once per
  * segment: q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5). */
+static void hermite_a345(const ffwd_real *P, ffwd_real *a)
+{
+    const ffwd_real dp = P[5] - P[0];
+    a[0] = FR(10) * dp - FR(6) * P[1] - FR(4) * P[4] - FR(1.5) * P[2] + FR(0.5) * P[3];
+    a[1] = FR(-15) * dp + FR(8) * P[1] + FR(7) * P[4] + FR(1.5) * P[2] - P[3];
+    a[2] = FR(6) * dp - FR(3) * P[1] - FR(3) * P[4] - FR(0.5) * P[2] + FR(0.5) * P[3];
+}
+
+/* Bounds of |q'|, |q''|, |q'''| of every jerk-limited joint on the segment from s0 to s1
+ * (sums of the absolute coefficients of each polynomial in th on [0, 1]), into s0->jb. */
+static void seg_bounds(const ffwd_governor *g, ffwd_gov_slot *s0, const ffwd_gov_slot *s1)
+{
+    const ffwd_real ds = g->cfg.ds, i1 = FR(1) / ds, i2 = i1 * i1, i3 = i2 * i1;
+    uint32_t j;
+    for (j = 0; j < g->model->dof; j++) {
+        ffwd_real P[6], a[3];
+        if (!(g->model->joint[j].has_limits & FFWD_LIM_JERK))
+            continue;
+        hermite_points(s0, s1, j, ds, P);
+        hermite_a345(P, a);
+        s0->jb[0][j] = (absr(P[1]) + absr(P[2]) + absr(FR(3) * a[0]) + absr(FR(4) * a[1])
+                        + absr(FR(5) * a[2])) * i1;
+        s0->jb[1][j] = (absr(P[2]) + absr(FR(6) * a[0]) + absr(FR(12) * a[1]) + absr(FR(20) * a[2])) * i2;
+        s0->jb[2][j] = (absr(FR(6) * a[0]) + absr(FR(24) * a[1]) + absr(FR(60) * a[2])) * i3;
+    }
+}
+
 static void seg_poly(ffwd_governor *g, uint32_t i)
 {
     const ffwd_real ds = g->cfg.ds, i1 = FR(1) / ds, i2 = i1 * i1;
@@ -572,14 +607,14 @@ static void seg_poly(ffwd_governor *g, uint32_t i)
         return;
     g->pc_seg = i;
     for (j = 0; j < g->model->dof; j++) {
-        ffwd_real P[6], dp, a3, a4, a5;
+        ffwd_real P[6], aa[3], a3, a4, a5;
         if (!(g->model->joint[j].has_limits & FFWD_LIM_JERK))
             continue;
         hermite_points(s0, s1, j, ds, P);
-        dp = P[5] - P[0];
-        a3 = FR(10) * dp - FR(6) * P[1] - FR(4) * P[4] - FR(1.5) * P[2] + FR(0.5) * P[3];
-        a4 = FR(-15) * dp + FR(8) * P[1] + FR(7) * P[4] + FR(1.5) * P[2] - P[3];
-        a5 = FR(6) * dp - FR(3) * P[1] - FR(3) * P[4] - FR(0.5) * P[2] + FR(0.5) * P[3];
+        hermite_a345(P, aa);
+        a3 = aa[0];
+        a4 = aa[1];
+        a5 = aa[2];
         g->pc1[j][0] = P[1] * i1;
         g->pc1[j][1] = P[2] * i1;
         g->pc1[j][2] = FR(3) * a3 * i1;
@@ -712,37 +747,44 @@ static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u,
 }
 
 /* Every limit of sample sl (twice the margin) over the box b of states
- * (kappa low, high, u low, high). */
+ * (kappa low, high, u low, high). Each row is a sum of a term in u and one in kappa, so
+ * its extremes over the box are the sums of theirs: a u at the u ends; b x + gv kappa at
+ * the kappa ends and, where b < 0, its interior maximum. */
 static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_real *b)
 {
     const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
-    uint32_t j, iu, ik;
-    if (b[1] * b[1] > sl->x_max)
+    const ffwd_real kl = b[0], kh = b[1], ul = b[2], uh = b[3], xl = kl * kl, xh = kh * kh;
+    uint32_t j;
+    if (xh > sl->x_max)
         return 0;
     for (j = 0; j < g->model->dof; j++) {
         const ffwd_joint *J = &g->model->joint[j];
-        const ffwd_real dq = sl->dq[j], ddq = sl->ddq[j];
+        const ffwd_real dq = sl->dq[j], ddq = sl->ddq[j], a = sl->a[j], bb = sl->b[j];
         const ffwd_real fc = J->coulomb * sgnr(dq);
         const ffwd_real tm = keep2 * J->tau_max, am = keep2 * J->a_max, gv = J->viscous * dq;
-        ffwd_real ks[3];
-        uint32_t nk = 2;
-        if (absr(dq) * b[1] > keep2 * J->v_max)
+        ffwd_real f0, f1, fhi, flo, u0, u1, e0, e1, v0, v1;
+        if (absr(dq) * kh > keep2 * J->v_max)
             return 0;
-        ks[0] = b[0];
-        ks[1] = b[1];
-        if (sl->b[j] < FR(0) && b[0] < -gv / (FR(2) * sl->b[j]) && -gv / (FR(2) * sl->b[j]) < b[1])
-            ks[nk++] = -gv / (FR(2) * sl->b[j]);    /* interior maximum of b x + gv kappa */
-        for (iu = 0; iu < 2u; iu++) {
-            const ffwd_real uu = b[2 + iu];
-            for (ik = 0; ik < nk; ik++) {
-                const ffwd_real k = ks[ik], x = k * k;
-                const ffwd_real tau = sl->a[j] * uu + sl->b[j] * x + gv * k + sl->c[j];
-                if (tau + maxr(fc, FR(0)) > tm || tau + minr(fc, FR(0)) < -tm)
-                    return 0;
-                if (absr(ddq * x + dq * uu) > am)
-                    return 0;
-            }
+        f0 = bb * xl + gv * kl;
+        f1 = bb * xh + gv * kh;
+        fhi = maxr(f0, f1);
+        flo = minr(f0, f1);
+        if (bb < FR(0) && kl < -gv / (FR(2) * bb) && -gv / (FR(2) * bb) < kh) {
+            const ffwd_real kv = -gv / (FR(2) * bb);   /* interior maximum of b x + gv kappa */
+            fhi = maxr(fhi, bb * (kv * kv) + gv * kv);
         }
+        u0 = a * ul;
+        u1 = a * uh;
+        if (maxr(u0, u1) + fhi + sl->c[j] + maxr(fc, FR(0)) > tm)
+            return 0;
+        if (minr(u0, u1) + flo + sl->c[j] + minr(fc, FR(0)) < -tm)
+            return 0;
+        e0 = ddq * xl;
+        e1 = ddq * xh;
+        v0 = dq * ul;
+        v1 = dq * uh;
+        if (maxr(e0, e1) + maxr(v0, v1) > am || minr(e0, e1) + minr(v0, v1) < -am)
+            return 0;
     }
     return 1;
 }
@@ -750,10 +792,10 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
 
 /* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
  * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Their boxes join the
- * segments' and their joint jerk is checked: the first cycle's exactly (interpolated q',
- * q''), the rest by the largest d qdd / ds over the segments they cross times the
- * longest step. Returns the number of cycles skipped (0: none), or -1 if the jerk
- * fails; g->pq becomes the last cycle's qdd. */
+ * segments' and the joint jerk between them is bounded by the largest d qdd / ds over
+ * the segments they cross times the longest step (the change into the first of them is
+ * checked as any cycle's). Returns the number of cycles skipped (0: none), or -1 if the
+ * jerk fails; g->cyc_prev becomes the last of them. */
 static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real Vp)
 {
     const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds, keep2 = FR(1) - FR(2) * g->cfg.margin;
@@ -802,29 +844,12 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
     }
     for (j = 0; j < n; j++) {
         const ffwd_joint *J = &g->model->joint[j];
-        ffwd_real jm;
-        int pass;
-        if (!(J->has_limits & FFWD_LIM_JERK))
-            continue;
-        jm = keep2 * J->j_max;
-        if (slope[j] * k > jm)               /* d qdd / ds times ds per cycle (< kappa dt) */
-            return -1;
-        for (pass = 0; pass < 2; pass++) {
-            ffwd_real ss = pass == 0 ? s : s_last, kk = pass == 0 ? k : k_last, th, dd[3], qn;
-            ffwd_real Hb[4][6];
-            i = (uint32_t)(ss / ds);
-            if (i > nseg - 1u)
-                i = nseg - 1u;
-            th = ss / ds - (ffwd_real)i;
-            hermite_basis(th, Hb);
-            path_d123(g, i, Hb, j, dd);
-            qn = dd[1] * kk * kk - dd[0] * D;
-            if (pass == 0 && absr(qn - g->pq[j]) > jm * dt)
-                return -1;
-            if (pass == 1)
-                g->pq[j] = qn;
-        }
+        if ((J->has_limits & FFWD_LIM_JERK) && slope[j] * k > keep2 * J->j_max)
+            return -1;                       /* d qdd / ds times ds per cycle (< kappa dt) */
     }
+    g->cyc_prev[0] = s_last;
+    g->cyc_prev[1] = k_last;
+    g->cyc_prev[2] = -D;
     return m;
 }
 
@@ -853,37 +878,141 @@ static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V)
     return s;
 }
 
-/* Does plan D from (sig, kap, u) meet every limit and rest inside the window? Its
- * cycles are simulated; per window segment the box of its cycle states is tested at
- * both ends (rows interpolate linearly between samples); the joint jerk per cycle,
- * from g->qdd0 (the command before the plan) on, with q' and q'' interpolated
- * linearly between samples. */
-static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
-                      ffwd_real Vp)
+/* The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp) stops
+ * inside the window by its continuous stop length, by bisection (GOV_FIT_ITER halvings;
+ * ua if none does): what a full check of plan D can accept at most. */
+static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, ffwd_real D,
+                            ffwd_real Vp)
 {
-    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt, keep2 = FR(1) - FR(2) * g->cfg.margin;
-    const uint32_t nseg = g->count - 1u, n = g->model->dof;
-    const ffwd_real send = (ffwd_real)nseg * ds;
+    const ffwd_real dt = g->cfg.dt, send = (ffwd_real)(g->count - 1u) * g->cfg.ds;
+    uint32_t it;
+    for (it = 0; it <= GOV_FIT_ITER; it++) {
+        ffwd_real uc = it == 0u ? ub : FR(0.5) * (ua + ub);
+        ffwd_real kc = g->kappa + uc * dt, sc = g->sigma + g->kappa * dt + FR(0.5) * dt * dt * uc;
+        int fit = (uc < FR(0) && kc <= FR(0)) || sc + stop_length(kc, uc, D, Vp) <= send;
+        if (it == 0u && fit)
+            return ub;
+        if (fit)
+            ua = uc;
+        else
+            ub = uc;
+    }
+    return ua;
+}
+
+/* The window segment of progress s (the last one past the end). */
+static uint32_t seg_of(const ffwd_governor *g, ffwd_real s)
+{
+    uint32_t i = (uint32_t)(s / g->cfg.ds);
+    return i > g->count - 2u ? g->count - 2u : i;
+}
+
+/* The command's qdd = q'' kappa^2 + q' u of every jerk-limited joint at a plan D cycle
+ * c = (s, kappa, u) (the path's interpolation) into qn. */
+static void cycle_qdd(ffwd_governor *g, const ffwd_real *c, ffwd_real *qn)
+{
+    const uint32_t i = seg_of(g, c[0]);
+    const ffwd_real th = c[0] / g->cfg.ds - (ffwd_real)i, k = c[1];
+    uint32_t j;
+    seg_poly(g, i);
+    for (j = 0; j < g->model->dof; j++) {
+        if (g->model->joint[j].has_limits & FFWD_LIM_JERK) {
+            const ffwd_real *c1 = g->pc1[j], *c2 = g->pc2[j];
+            ffwd_real q1 = (((c1[4] * th + c1[3]) * th + c1[2]) * th + c1[1]) * th + c1[0];
+            ffwd_real q2 = ((c2[3] * th + c2[2]) * th + c2[1]) * th + c2[0];
+            qn[j] = q2 * k * k + q1 * c[2];
+        }
+    }
+}
+
+/* |qb - qa| <= the jerk limit times dt for every jerk-limited joint (twice the margin). */
+static int jerk_step_ok(const ffwd_governor *g, const ffwd_real *qa, const ffwd_real *qb)
+{
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
+    uint32_t j;
+    for (j = 0; j < g->model->dof; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        if ((J->has_limits & FFWD_LIM_JERK) && absr(qb[j] - qa[j]) > keep2 * J->j_max * g->cfg.dt)
+            return 0;
+    }
+    return 1;
+}
+
+/* The joint jerk between the plan D cycles a and c (s, kappa, u each), exactly. */
+static int cycles_jerk_ok(ffwd_governor *g, const ffwd_real *a, const ffwd_real *c)
+{
+    cycle_qdd(g, a, g->pq);
+    cycle_qdd(g, c, g->pq2);
+    return jerk_step_ok(g, g->pq, g->pq2);
+}
+
+/* Does the jerk bound cover every change of qdd between a cycle starting in segment a
+ * and the next (in a or a + 1)? With the bounds B1, B2, B3 of |q'|, |q''|, |q'''| over
+ * both segments and the largest kappa and |u| of their boxes, the change over a cycle
+ * at constant u whose next u differs by at most Vp dt is at most
+ *   dt (B3 kappa^3 + 3 B2 kappa |u| + B1 Vp)
+ * (d/dt (q'' kappa^2 + q' u) = q''' kappa^3 + 3 q'' kappa u + q' du/dt). */
+static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
+{
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
+    const uint32_t nseg = g->count - 1u;
+    const ffwd_gov_slot *sa = slot_at_c(g, a), *sb = slot_at_c(g, a + 1u);
+    const ffwd_real *b = g->box[a];
+    ffwd_real kk = b[1], uu = maxr(absr(b[2]), absr(b[3]));
+    uint32_t j;
+    if (a + 1u < nseg && g->box_used[a + 1u]) {
+        const ffwd_real *c = g->box[a + 1u];
+        kk = maxr(kk, c[1]);
+        uu = maxr(uu, maxr(absr(c[2]), absr(c[3])));
+    }
+    for (j = 0; j < g->model->dof; j++) {
+        const ffwd_joint *J = &g->model->joint[j];
+        if (J->has_limits & FFWD_LIM_JERK) {
+            ffwd_real B1 = sa->jb[0][j], B2 = sa->jb[1][j], B3 = sa->jb[2][j];
+            if (a + 1u < nseg) {
+                B1 = maxr(B1, sb->jb[0][j]);
+                B2 = maxr(B2, sb->jb[1][j]);
+                B3 = maxr(B3, sb->jb[2][j]);
+            }
+            if (B3 * kk * kk * kk + FR(3) * B2 * kk * uu + B1 * Vp * (FR(1) + FR(1e-9)) > keep2 * J->j_max)
+                return 0;
+        }
+    }
+    return 1;
+}
+
+/* Plan D's cycles from (sig, kap > 0, u). Pass 1 records the per-segment boxes and the
+ * first and last cycle (returns 2 when a cycle jumps over a whole segment: pass 2 is
+ * needed); pass 2 checks the joint jerk exactly wherever the bound does not cover it
+ * (box_used 2: covered). 0: the plan fails. */
+static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
+                        ffwd_real Vp, int pass)
+{
+    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
+    const ffwd_real send = (ffwd_real)(g->count - 1u) * ds;
     ffwd_real s = sig, k = kap, uu = u;
-    uint32_t cycles = 0, i, j;
-    if (sig + stop_length(kap, u, D, Vp) > send)
-        return 0;                           /* it cannot rest inside the window */
-    for (i = 0; i < nseg; i++)
-        g->box_used[i] = 0;
-    for (j = 0; j < n; j++)
-        g->pq[j] = g->qdd0[j];
-    g->pc_seg = FFWD_GOV_MAX_HORIZON;
+    uint32_t cycles = 0, i, ip = 0;
+    int wide = 0, first = 1;
     while (k > FR(0)) {
-        ffwd_real un, th, *b;
-        if (uu == -D) {                      /* holding: skip the middle of the hold */
-            long mk = hold_skip(g, s, k, D, Vp);
+        ffwd_real un, *b;
+        if (uu == -D && !first) {            /* holding: skip the middle of the hold */
+            ffwd_real pv[3];
+            long mk;
+            memcpy(pv, g->cyc_prev, sizeof pv);
+            mk = hold_skip(g, s, k, D, Vp);
             if (mk < 0)
                 return 0;
             if (mk > 0) {
                 ffwd_real mr = (ffwd_real)mk;
+                const ffwd_real c[3] = { s, k, -D };
+                i = seg_of(g, s);
+                wide |= i > ip + 1u;
+                if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u) && !cycles_jerk_ok(g, pv, c))
+                    return 0;
                 cycles += (uint32_t)mk;
                 s += mr * k * dt - FR(0.5) * D * dt * dt * mr * mr;
                 k -= mr * D * dt;
+                ip = seg_of(g, g->cyc_prev[0]);
                 continue;
             }
         }
@@ -891,36 +1020,36 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         if (cycles > (uint32_t)FFWD_GOV_PLAN_CYCLES || s > send)
             return 0;
         un = plan_action(g, k, uu, D, Vp);
-        i = (uint32_t)(s / ds);
-        if (i > nseg - 1u)
-            i = nseg - 1u;
-        th = s / ds - (ffwd_real)i;
-        if (g->any_jerk)
-            seg_poly(g, i);
-        for (j = 0; j < n; j++) {
-            const ffwd_joint *J = &g->model->joint[j];
-            if (J->has_limits & FFWD_LIM_JERK) {
-                const ffwd_real *c1 = g->pc1[j], *c2 = g->pc2[j];
-                ffwd_real q1 = (((c1[4] * th + c1[3]) * th + c1[2]) * th + c1[1]) * th + c1[0];
-                ffwd_real q2 = ((c2[3] * th + c2[2]) * th + c2[1]) * th + c2[0];
-                ffwd_real qn = q2 * k * k + q1 * un;
-                if (absr(qn - g->pq[j]) > keep2 * J->j_max * dt)
-                    return 0;
-                g->pq[j] = qn;
-            }
-        }
-        b = g->box[i];
-        /* the box of kappa and u (this cycle's and the one before) */
-        if (!g->box_used[i]) {
-            g->box_used[i] = 1;
-            b[0] = b[1] = k;
-            b[2] = minr(uu, un);
-            b[3] = maxr(uu, un);
+        i = seg_of(g, s);
+        if (first) {
+            g->cyc_first[0] = s;
+            g->cyc_first[1] = k;
+            g->cyc_first[2] = un;
         } else {
-            b[0] = minr(b[0], k);
-            b[1] = maxr(b[1], k);
-            b[2] = minr(b[2], minr(uu, un));
-            b[3] = maxr(b[3], maxr(uu, un));
+            const ffwd_real c[3] = { s, k, un };
+            wide |= i > ip + 1u;
+            if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u) && !cycles_jerk_ok(g, g->cyc_prev, c))
+                return 0;
+        }
+        g->cyc_prev[0] = s;
+        g->cyc_prev[1] = k;
+        g->cyc_prev[2] = un;
+        ip = i;
+        first = 0;
+        if (pass == 1) {
+            b = g->box[i];
+            /* the box of kappa and u (this cycle's and the one before) */
+            if (!g->box_used[i]) {
+                g->box_used[i] = 1;
+                b[0] = b[1] = k;
+                b[2] = minr(uu, un);
+                b[3] = maxr(uu, un);
+            } else {
+                b[0] = minr(b[0], k);
+                b[1] = maxr(b[1], k);
+                b[2] = minr(b[2], minr(uu, un));
+                b[3] = maxr(b[3], maxr(uu, un));
+            }
         }
         if (un < FR(0) && k + un * dt <= FR(0)) {
             if (-un > Vp * dt * (FR(1) + FR(1e-9)))   /* u drops to 0 at rest: one cycle's change */
@@ -936,18 +1065,41 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     }
     if (s > send)
         return 0;
-    for (j = 0; j < n; j++)                   /* at rest the command's qdd is 0 */
-        if ((g->model->joint[j].has_limits & FFWD_LIM_JERK)
-            && absr(g->pq[j]) > keep2 * g->model->joint[j].j_max * dt)
-            return 0;
+    memcpy(g->cyc_last, g->cyc_prev, sizeof g->cyc_last);
+    return wide ? 2 : 1;
+}
+
+/* Does plan D from (sig, kap, u) meet every limit and rest inside the window? Its
+ * cycles are simulated; per window segment the box of its cycle states is tested at
+ * both ends (rows interpolate linearly between samples); the joint jerk per cycle,
+ * from g->qdd0 (the command before the plan) to rest, by the segments' bound where it
+ * covers it, else exactly (q' and q'' of the path's interpolation). */
+static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
+                      ffwd_real Vp)
+{
+    const uint32_t nseg = g->count - 1u;
+    const ffwd_real send = (ffwd_real)nseg * g->cfg.ds;
+    uint32_t i;
+    int r, all = 1;
+    if (sig + stop_length(kap, u, D, Vp) > send)
+        return 0;                           /* it cannot rest inside the window */
+    ffwd_zero_(g->pq2, FFWD_MAX_DOF);
+    if (kap <= FR(0))                       /* at rest already: the command's qdd is 0 */
+        return !g->any_jerk || jerk_step_ok(g, g->qdd0, g->pq2);
+    for (i = 0; i < nseg; i++)
+        g->box_used[i] = 0;
+    g->pc_seg = FFWD_GOV_MAX_HORIZON;
+    r = decel_cycles(g, sig, kap, u, D, Vp, 1);
+    if (r == 0)
+        return 0;
     /* each sample once, with the box joining the two segments it ends (rows are affine
      * between samples: both ends of a segment cover it) */
     for (i = 0; i <= nseg; i++) {
-        const int l = i > 0u && g->box_used[i - 1u], r = i < nseg && g->box_used[i];
+        const int l = i > 0u && g->box_used[i - 1u], rr = i < nseg && g->box_used[i];
         ffwd_real bb[4];
-        if (!l && !r)
+        if (!l && !rr)
             continue;
-        if (l && r) {
+        if (l && rr) {
             const ffwd_real *p = g->box[i - 1u], *q = g->box[i];
             bb[0] = minr(p[0], q[0]);
             bb[1] = maxr(p[1], q[1]);
@@ -959,7 +1111,24 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         if (!box_fits(g, slot_at(g, i), bb))
             return 0;
     }
-    return 1;
+    if (!g->any_jerk)
+        return 1;
+    /* the first cycle from the command before the plan; at rest the command's qdd is 0 */
+    cycle_qdd(g, g->cyc_first, g->pq);
+    if (!jerk_step_ok(g, g->qdd0, g->pq))
+        return 0;
+    cycle_qdd(g, g->cyc_last, g->pq);
+    if (!jerk_step_ok(g, g->pq2, g->pq))
+        return 0;
+    for (i = 0; i < nseg; i++) {
+        if (g->box_used[i] && seg_jerk_safe(g, i, Vp))
+            g->box_used[i] = 2;
+        else if (g->box_used[i])
+            all = 0;
+    }
+    if (all && r == 1)
+        return 1;
+    return decel_cycles(g, sig, kap, u, D, Vp, 2) != 0;
 }
 
 /* The braking plan that vouches for applying uc this cycle (FFWD_GOV_PLAN_*, its D in
@@ -1054,7 +1223,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     ffwd_real *d1, *d2, *tau0, *ta, *gq, *zq;
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
     ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss, hic, Vp, Dr, Dk = FR(0);
-    uint32_t n, j, k, flags = 0, jerk_bad = 0;
+    uint32_t n, j, k, nb, flags = 0, jerk_bad = 0;
     int kind, got;
     ffwd_status st;
     if (out == NULL)
@@ -1268,10 +1437,27 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         got = keep_plan(g, kind, Dk, Vp);
     }
     if (!got) {
-        ffwd_real ua, ub, ufb = plan_step(g, x);
+        ffwd_real ua, ub, ufb = plan_step(g, x), Dm = Dr, uw;
         ua = ufb;
         ub = unew;
-        for (k = 0; k < GOV_BISECT; k++) {
+        /* first the largest u whose plan D stop fits the window (its continuous stop
+         * length, for the largest D tried): usually what the window allows */
+        if (g->plan == FFWD_GOV_PLAN_DECEL)
+            Dm = maxr(Dm, g->plan_D);
+        if (ufb < unew && Dm > FR(0)) {
+            uw = stop_fit_u(g, ufb, unew, Dm, Vp);
+            if (uw > ufb && uw < unew) {
+                ub = uw;
+                if (step_fits(g, uw, lo, hi, vlo, vhi, jerk_bad)) {
+                    kind = vouch(g, uw, Vp, Dr, 0, &Dk);
+                    got = keep_plan(g, kind, Dk, Vp);
+                    if (got)
+                        ua = uw;
+                }
+            }
+        }
+        nb = got ? 0u : GOV_BISECT;         /* no halvings after the first try holds */
+        for (k = 0; k < nb; k++) {
             ffwd_real mid = FR(0.5) * (ua + ub);
             int r = 0;
             if (step_fits(g, mid, lo, hi, vlo, vhi, jerk_bad)) {

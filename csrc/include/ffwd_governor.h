@@ -92,6 +92,7 @@ typedef struct ffwd_gov_slot {     /* one window sample (internal) */
     ffwd_real u_try, u_plan;       /* and its u on the segment from here */
     ffwd_real vp;                  /* ramp rate the jerk limits allow plan D here (half) */
     ffwd_real dr;                  /* largest constant deceleration the limits allow at rest */
+    ffwd_real jb[3][FFWD_MAX_DOF]; /* bounds of |q'|, |q''|, |q'''| on the segment from here */
 } ffwd_gov_slot;
 
 typedef struct ffwd_governor {
@@ -119,12 +120,14 @@ typedef struct ffwd_governor {
      * (kappa low, high, u low, high) and whether a cycle starts there; the command's
      * qdd before the plan and along it */
     ffwd_real box[FFWD_GOV_MAX_HORIZON][4];
-    ffwd_real qdd0[FFWD_MAX_DOF], pq[FFWD_MAX_DOF];
+    ffwd_real qdd0[FFWD_MAX_DOF], pq[FFWD_MAX_DOF], pq2[FFWD_MAX_DOF];
     uint8_t box_used[FFWD_GOV_MAX_HORIZON];
     /* q' and q'' of window segment pc_seg as polynomials in its fraction th (per joint,
      * constant term first; pc_seg = FFWD_GOV_MAX_HORIZON: none) */
     ffwd_real pc1[FFWD_MAX_DOF][5], pc2[FFWD_MAX_DOF][4];
     uint32_t pc_seg;
+    /* plan D's first and last cycle (s, kappa, u) and the cycle before the one checked */
+    ffwd_real cyc_first[3], cyc_last[3], cyc_prev[3];
     /* scratch of ffwd_governor_push (kept here, off the stack): the rows' lower and
      * upper bounds of u, u >= lB x + lG kappa + lD and u <= uB x + uG kappa + uD */
     ffwd_real lB[FFWD_GOV_COLS], lG[FFWD_GOV_COLS], lD[FFWD_GOV_COLS];

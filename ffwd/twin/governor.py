@@ -28,6 +28,7 @@ BIG = 1e30
 CAP = 1e15
 ALPHA_TOL = 1e-12
 NBISECT = 4            # halvings between the plan's u and the step's
+FIT_ITER = 20          # halvings of stop_fit_u
 MAX_PLAN_CYCLES = 100000   # cycles of plan D simulated at most (longer: not vouched for)
 REST_TOL = 1e-12
 
@@ -101,10 +102,19 @@ def hermite_basis(th):
     )
 
 
+def hermite_a345(p0, v0, w0, w1, v1, p1):
+    """The th^3, th^4, th^5 coefficients of the quintic Hermite through the data
+    (q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5)."""
+    dp = p1 - p0
+    return (10.0 * dp - 6.0 * v0 - 4.0 * v1 - 1.5 * w0 + 0.5 * w1,
+            -15.0 * dp + 8.0 * v0 + 7.0 * v1 + 1.5 * w0 - w1,
+            6.0 * dp - 3.0 * v0 - 3.0 * v1 - 0.5 * w0 + 0.5 * w1)
+
+
 class Slot:
     """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
     __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe",
-                 "x_try", "x_plan", "u_try", "u_plan", "vp", "dr")
+                 "x_try", "x_plan", "u_try", "u_plan", "vp", "dr", "jb")
 
 
 class GovernorTwin:
@@ -314,6 +324,9 @@ class GovernorTwin:
                 sl.dr = min(sl.dr, max(room, 0.0) / abs(sl.a[j]))
             if dq > 0.0:
                 sl.dr = min(sl.dr, keep * self.a_max[j] / dq)
+        sl.jb = [[0.0] * n for _ in range(3)]    # |q'|, |q''|, |q'''| bounds on the segment from here
+        if self.window:
+            self.window[-1].jb = self.seg_bounds(self.window[-1], sl)
         self.window.append(sl)
         self.pushed += 1
         self.dirty = True
@@ -522,68 +535,154 @@ class GovernorTwin:
             if self.j_max[j] is None:
                 continue
             p0, v0, w0, w1, v1, p1 = hermite_points(self.window[i], self.window[i + 1], j, ds)
-            dp = p1 - p0
-            a3 = 10.0 * dp - 6.0 * v0 - 4.0 * v1 - 1.5 * w0 + 0.5 * w1
-            a4 = -15.0 * dp + 8.0 * v0 + 7.0 * v1 + 1.5 * w0 - w1
-            a5 = 6.0 * dp - 3.0 * v0 - 3.0 * v1 - 0.5 * w0 + 0.5 * w1
+            a3, a4, a5 = hermite_a345(p0, v0, w0, w1, v1, p1)
             c1[j] = (v0 * i1, w0 * i1, 3.0 * a3 * i1, 4.0 * a4 * i1, 5.0 * a5 * i1)
             c2[j] = (w0 * i2, 6.0 * a3 * i2, 12.0 * a4 * i2, 20.0 * a5 * i2)
         return c1, c2
 
-    def plan_decel(self, sig, kap, u, D, Vp, qdd0):
-        """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
-        Its cycles are simulated; per window segment the box of its cycle states is
-        tested at both ends (rows interpolate linearly between samples); the joint jerk
-        per cycle, from qdd0 (the command before the plan) on, with the q' and q'' the
-        commands will have (the path's interpolation)."""
-        ds, w, dt = self.ds, self.window, self.dt
+    def stop_fit_u(self, ua, ub, D, Vp):
+        """The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp)
+        stops inside the window by its continuous stop length, by bisection (ua if
+        none does): what a full check of plan D can accept at most."""
+        dt, send = self.dt, (len(self.window) - 1) * self.ds
+
+        def fit(uc):
+            kc = self.kappa + uc * dt
+            sc = self.sigma + self.kappa * dt + 0.5 * dt * dt * uc
+            return (uc < 0.0 and kc <= 0.0) or sc + self.stop_length(kc, uc, D, Vp) <= send
+
+        if fit(ub):
+            return ub
+        for _ in range(FIT_ITER):
+            mid = 0.5 * (ua + ub)
+            if fit(mid):
+                ua = mid
+            else:
+                ub = mid
+        return ua
+
+    def seg_bounds(self, s0, s1):
+        """Bounds of |q'|, |q''|, |q'''| of every jerk-limited joint on the segment from
+        s0 to s1: sums of the absolute coefficients of each polynomial in th on [0, 1]."""
+        ds = self.ds
+        i1 = 1.0 / ds
+        i2 = i1 * i1
+        i3 = i2 * i1
+        jb = [[0.0] * self.n for _ in range(3)]
+        for j in range(self.n):
+            if self.j_max[j] is None:
+                continue
+            p0, v0, w0, w1, v1, p1 = hermite_points(s0, s1, j, ds)
+            a3, a4, a5 = hermite_a345(p0, v0, w0, w1, v1, p1)
+            jb[0][j] = (abs(v0) + abs(w0) + abs(3.0 * a3) + abs(4.0 * a4) + abs(5.0 * a5)) * i1
+            jb[1][j] = (abs(w0) + abs(6.0 * a3) + abs(12.0 * a4) + abs(20.0 * a5)) * i2
+            jb[2][j] = (abs(6.0 * a3) + abs(24.0 * a4) + abs(60.0 * a5)) * i3
+        return jb
+
+    def seg_of(self, s):
+        """The window segment of progress s (the last one past the end)."""
+        return min(int(s / self.ds), len(self.window) - 2)
+
+    def cycle_qdd(self, c):
+        """The command's qdd = q'' kappa^2 + q' u of the jerk-limited joints at a plan D
+        cycle c = (s, kappa, u) (the path's interpolation)."""
+        s, k, u = c
+        i = self.seg_of(s)
+        th = s / self.ds - i
+        c1, c2 = self.seg_poly(i)
+        qn = {}
+        for j in c1:
+            a, b = c1[j], c2[j]
+            dq = (((a[4] * th + a[3]) * th + a[2]) * th + a[1]) * th + a[0]
+            ddq = ((b[3] * th + b[2]) * th + b[1]) * th + b[0]
+            qn[j] = ddq * k * k + dq * u
+        return qn
+
+    def jerk_step_ok(self, qa, qb):
+        """|qb - qa| <= the jerk limit times dt for every jerk-limited joint (twice the margin)."""
         keep2 = 1.0 - 2.0 * self.margin
-        qp = list(qdd0)
-        nseg = len(w) - 1
-        send = nseg * ds
-        box = {}
-        if sig + self.stop_length(kap, u, D, Vp) > send:
-            return False                       # it cannot rest inside the window
+        return all(abs(qb[j] - qa[j]) <= keep2 * self.j_max[j] * self.dt
+                   for j in range(self.n) if self.j_max[j] is not None)
+
+    def seg_jerk_safe(self, a, box, Vp):
+        """Does the jerk bound cover every change of qdd between a cycle starting in
+        segment a and the next (in a or a + 1)? With the bounds B1, B2, B3 of |q'|,
+        |q''|, |q'''| over both segments and the largest kappa and |u| of their boxes,
+        the change over a cycle at constant u whose next u differs by at most Vp dt is at
+        most dt (B3 kappa^3 + 3 B2 kappa |u| + B1 Vp), since
+        d/dt (q'' kappa^2 + q' u) = q''' kappa^3 + 3 q'' kappa u + q' du/dt."""
+        keep2 = 1.0 - 2.0 * self.margin
+        w, nseg = self.window, len(self.window) - 1
+        b = box[a]
+        kk, uu = b[1], max(abs(b[2]), abs(b[3]))
+        if a + 1 < nseg and a + 1 in box:
+            c = box[a + 1]
+            kk, uu = max(kk, c[1]), max(uu, max(abs(c[2]), abs(c[3])))
+        for j in range(self.n):
+            if self.j_max[j] is None:
+                continue
+            B1, B2, B3 = w[a].jb[0][j], w[a].jb[1][j], w[a].jb[2][j]
+            if a + 1 < nseg:
+                B1, B2, B3 = max(B1, w[a + 1].jb[0][j]), max(B2, w[a + 1].jb[1][j]), max(B3, w[a + 1].jb[2][j])
+            if B3 * kk * kk * kk + 3.0 * B2 * kk * uu + B1 * Vp * (1.0 + 1e-9) > keep2 * self.j_max[j]:
+                return False
+        return True
+
+    def decel_cycles(self, sig, kap, u, D, Vp, box, safe=None):
+        """Plan D's cycles from (sig, kappa > 0, u). The first pass (safe None) records
+        the per-segment boxes; the second checks the joint jerk exactly wherever the
+        bound does not cover it (segments not in safe). Returns None if the plan fails,
+        else (first cycle, last cycle, whether a cycle jumps over a whole segment)."""
+        ds, dt = self.ds, self.dt
+        send = (len(self.window) - 1) * ds
         s, k, uu = sig, kap, u
-        cycles = 0
-        poly_seg = None
+        cycles, ip, wide = 0, 0, False
+        first = prev = None
+
+        def exact(i, c):        # pass 2: the change from the cycle before to c, where needed
+            return (safe is None or (ip in safe and i <= ip + 1)
+                    or self.jerk_step_ok(self.cycle_qdd(prev), self.cycle_qdd(c)))
+
         while k > 0.0:
-            if uu == -D:                       # holding: skip the middle of the hold
-                m = self.hold_skip(s, k, D, Vp, qp, box)
+            if uu == -D and first is not None:       # holding: skip the middle of the hold
+                m, last = self.hold_skip(s, k, D, Vp, box)
                 if m < 0:
-                    return False
+                    return None
                 if m > 0:
+                    i = self.seg_of(s)
+                    wide = wide or i > ip + 1
+                    if not exact(i, (s, k, -D)):
+                        return None
                     cycles += m
                     s += m * k * dt - 0.5 * D * dt * dt * m * m
                     k -= m * D * dt
+                    prev = last
+                    ip = self.seg_of(last[0])
                     continue
             cycles += 1
             if cycles > MAX_PLAN_CYCLES or s > send:
-                return False
+                return None
             un = self.plan_action(k, uu, D, Vp)
-            i = min(int(s / ds), nseg - 1)
-            th = s / ds - i
-            if self.any_jerk and i != poly_seg:
-                poly_seg, (c1, c2) = i, self.seg_poly(i)
-            for j in range(self.n):
-                if self.j_max[j] is not None:
-                    a, b = c1[j], c2[j]
-                    dq = (((a[4] * th + a[3]) * th + a[2]) * th + a[1]) * th + a[0]
-                    ddq = ((b[3] * th + b[2]) * th + b[1]) * th + b[0]
-                    qn = ddq * k * k + dq * un
-                    if abs(qn - qp[j]) > keep2 * self.j_max[j] * dt:
-                        return False
-                    qp[j] = qn
-            # the box of kappa and u (this cycle's and the one before)
-            b = box.get(i)
-            if b is None:
-                box[i] = [k, k, min(uu, un), max(uu, un)]
+            i = self.seg_of(s)
+            if first is None:
+                first = (s, k, un)
             else:
-                b[0] = min(b[0], k); b[1] = max(b[1], k)
-                b[2] = min(b[2], min(uu, un)); b[3] = max(b[3], max(uu, un))
+                wide = wide or i > ip + 1
+                if not exact(i, (s, k, un)):
+                    return None
+            prev = (s, k, un)
+            ip = i
+            if safe is None:
+                # the box of kappa and u (this cycle's and the one before)
+                b = box.get(i)
+                if b is None:
+                    box[i] = [k, k, min(uu, un), max(uu, un)]
+                else:
+                    b[0] = min(b[0], k); b[1] = max(b[1], k)
+                    b[2] = min(b[2], min(uu, un)); b[3] = max(b[3], max(uu, un))
             if un < 0.0 and k + un * dt <= 0.0:
                 if -un > Vp * dt * (1.0 + 1e-9):     # u drops to 0 at rest: one cycle's change
-                    return False
+                    return None
                 s += k * k / (-2.0 * un)
                 k = uu = 0.0
             else:
@@ -591,10 +690,27 @@ class GovernorTwin:
                 k += un * dt
                 uu = un
         if s > send:
+            return None
+        return first, prev, wide
+
+    def plan_decel(self, sig, kap, u, D, Vp, qdd0):
+        """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
+        Its cycles are simulated; per window segment the box of its cycle states is
+        tested at both ends (rows interpolate linearly between samples); the joint jerk
+        per cycle, from qdd0 (the command before the plan) to rest, by the segments'
+        bound where it covers it, else exactly (q' and q'' of the path's interpolation)."""
+        w = self.window
+        nseg = len(w) - 1
+        if sig + self.stop_length(kap, u, D, Vp) > nseg * self.ds:
+            return False                       # it cannot rest inside the window
+        zero = [0.0] * self.n
+        if kap <= 0.0:                         # at rest already: the command's qdd is 0
+            return not self.any_jerk or self.jerk_step_ok(qdd0, zero)
+        box = {}
+        run = self.decel_cycles(sig, kap, u, D, Vp, box)
+        if run is None:
             return False
-        for j in range(self.n):                    # at rest the command's qdd is 0
-            if self.j_max[j] is not None and abs(qp[j]) > keep2 * self.j_max[j] * dt:
-                return False
+        first, last, wide = run
         # each sample once, with the box joining the two segments it ends (rows are
         # affine between samples: both ends of a segment cover it)
         for i in range(nseg + 1):
@@ -604,26 +720,36 @@ class GovernorTwin:
                 ul, uh = min(b[2] for b in near), max(b[3] for b in near)
                 if not self.box_fits(w[i], kl, kh, ul, uh):
                     return False
-        return True
+        if not self.any_jerk:
+            return True
+        # the first cycle from the command before the plan; at rest the command's qdd is 0
+        if not self.jerk_step_ok(qdd0, self.cycle_qdd(first)):
+            return False
+        if not self.jerk_step_ok(zero, self.cycle_qdd(last)):
+            return False
+        safe = {i for i in sorted(box) if self.seg_jerk_safe(i, box, Vp)}
+        if len(safe) == len(box) and not wide:
+            return True
+        return self.decel_cycles(sig, kap, u, D, Vp, box, safe) is not None
 
-    def hold_skip(self, s, k, D, Vp, qp, box):
+    def hold_skip(self, s, k, D, Vp, box):
         """Plan D holding u = -D from (s, kappa): the cycles up to two before the ramp
         back, at once (x is affine in s along them: x = kappa^2 - 2 D (s' - s)). Their
-        boxes join the segments' and their joint jerk is checked: the first cycle's
-        exactly (interpolated q', q''), the rest by the largest d qdd / ds over the
-        segments they cross times the longest step. Returns the number of cycles
-        skipped (0: none), or -1 if the jerk fails; qp becomes the last cycle's qdd."""
+        boxes join the segments' and the joint jerk between them is bounded by the
+        largest d qdd / ds over the segments they cross times the longest step (the
+        change into the first of them is checked as any cycle's). Returns the number of
+        cycles skipped (0: none; -1 if the jerk fails) and the last of them."""
         dt, ds, w = self.dt, self.ds, self.window
         keep2 = 1.0 - 2.0 * self.margin
         m = math.floor(min((k - self.ramp_need(-D, Vp)) / (D * dt), 1e9)) - 2
         if m < 2:
-            return 0
+            return 0, None
         nseg = len(w) - 1
         x0 = k * k
         s_last = s + (m - 1) * k * dt - 0.5 * D * dt * dt * (m - 1) * (m - 1)
         k_last = k - (m - 1) * D * dt
         if s_last > nseg * ds:
-            return 0                           # beyond the window: the cycles say so
+            return 0, None                     # beyond the window: the cycles say so
         i0, i1 = int(s / ds), min(int(s_last / ds), nseg - 1)
         slope = [0.0] * self.n
         for i in range(i0, i1 + 1):
@@ -642,44 +768,39 @@ class GovernorTwin:
                 dd = max(abs(w[i].ddq[j]), abs(w[i + 1].ddq[j]))
                 slope[j] = max(slope[j], abs(g2) * kh * kh + 2.0 * D * dd + D * abs(g1))
         for j in range(self.n):
-            if self.j_max[j] is None:
-                continue
-            jm = keep2 * self.j_max[j]
-            if slope[j] * k > jm:              # d qdd / ds times ds per cycle (< kappa dt)
-                return -1
-            for ss, kk, first in ((s, k, True), (s_last, k_last, False)):
-                i = min(int(ss / ds), nseg - 1)
-                dq, ddq, _ = self.path_d123(i, hermite_basis(ss / ds - i), j)
-                qn = ddq * kk * kk - dq * D
-                if first and abs(qn - qp[j]) > jm * dt:
-                    return -1
-                if not first:
-                    qp[j] = qn
-        return m
+            if self.j_max[j] is not None and slope[j] * k > keep2 * self.j_max[j]:
+                return -1, None                # d qdd / ds times ds per cycle (< kappa dt)
+        return m, (s_last, k_last, -D)
 
     def box_fits(self, sl, kl, kh, ul, uh):
-        """Every limit of sample sl (twice the margin) over the box of states."""
+        """Every limit of sample sl (twice the margin) over the box of states. Each row
+        is a sum of a term in u and one in kappa, so its extremes over the box are the
+        sums of theirs: a u at ul, uh; b x + gv kappa at kl, kh and, where b < 0, its
+        interior maximum."""
         keep2 = 1.0 - 2.0 * self.margin
-        if kh * kh > sl.x_max:
+        xl, xh = kl * kl, kh * kh
+        if xh > sl.x_max:
             return False
         for j in range(self.n):
-            dq, ddq = sl.dq[j], sl.ddq[j]
+            dq, ddq, a, b = sl.dq[j], sl.ddq[j], sl.a[j], sl.b[j]
             fc = self.coulomb[j] * sgn(dq)
             tm, am = keep2 * self.tau_max[j], keep2 * self.a_max[j]
             if abs(dq) * kh > keep2 * self.v_max[j]:
                 return False
             gv = self.viscous[j] * dq
-            ks = [kl, kh]
-            if sl.b[j] < 0.0 and kl < -gv / (2.0 * sl.b[j]) < kh:
-                ks.append(-gv / (2.0 * sl.b[j]))     # interior maximum of b x + gv kappa
-            for uu in (ul, uh):
-                for k in ks:
-                    x = k * k
-                    tau = sl.a[j] * uu + sl.b[j] * x + gv * k + sl.c[j]
-                    if tau + max(fc, 0.0) > tm or tau + min(fc, 0.0) < -tm:
-                        return False
-                    if abs(ddq * x + dq * uu) > am:
-                        return False
+            f0, f1 = b * xl + gv * kl, b * xh + gv * kh
+            fhi, flo = max(f0, f1), min(f0, f1)
+            if b < 0.0 and kl < -gv / (2.0 * b) < kh:
+                kv = -gv / (2.0 * b)                      # interior maximum of b x + gv kappa
+                fhi = max(fhi, b * (kv * kv) + gv * kv)
+            u0, u1 = a * ul, a * uh
+            if max(u0, u1) + fhi + sl.c[j] + max(fc, 0.0) > tm:
+                return False
+            if min(u0, u1) + flo + sl.c[j] + min(fc, 0.0) < -tm:
+                return False
+            e0, e1, v0, v1 = ddq * xl, ddq * xh, dq * ul, dq * uh
+            if max(e0, e1) + max(v0, v1) > am or min(e0, e1) + min(v0, v1) < -am:
+                return False
         return True
 
     def vouch(self, uc, Vp, Dr, every=True):
@@ -879,7 +1000,18 @@ class GovernorTwin:
         if got is None:
             ufb = self.plan_step(x)
             a, b = ufb, unew
-            for _ in range(NBISECT):
+            # first the largest u whose plan D stop fits the window (its continuous stop
+            # length, for the largest D tried): usually what the window allows
+            Dm = max(Dr, self.plan[1]) if self.plan is not None and self.plan[0] == "D" else Dr
+            if ufb < unew and Dm > 0.0:
+                uw = self.stop_fit_u(ufb, unew, Dm, Vp)
+                if ufb < uw < unew:
+                    b = uw
+                    if fits(uw):
+                        got = self.keep_plan(self.vouch(uw, Vp, Dr, False))
+                        if got is not None:
+                            a = uw
+            for _ in range(0 if got is not None else NBISECT):
                 mid = 0.5 * (a + b)
                 r = self.keep_plan(self.vouch(mid, Vp, Dr, False)) if fits(mid) else None
                 if r is None:
