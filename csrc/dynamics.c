@@ -185,6 +185,35 @@ static int e0_kind(const ffwd_real *K)
     return (int)k;
 }
 
+/* The body force of id_pass from B(i) (Om at 0, al at 18): f = M al + Om h into 24 and
+ * n = h x al + the axial vector of Om J - (Om J)^T into 27. Out of line: one copy of the
+ * code, and its own registers (inlined, the loop around it spills). */
+static FFWD_NOINLINE void body_force(ffwd_real *B, const ffwd_real *th, const ffwd_real *Jm)
+{
+    const ffwd_real M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
+    const ffwd_real a0 = B[18], a1 = B[19], a2 = B[20];
+    const ffwd_real O0 = B[0], O1 = B[1], O2 = B[2], O3 = B[3], O4 = B[4], O5 = B[5];
+    const ffwd_real O6 = B[6], O7 = B[7], O8 = B[8];
+    ffwd_real o0, o1, o2;
+    o0 = M * a0 + O0 * h0 + O1 * h1 + O2 * h2;
+    o1 = M * a1 + O3 * h0 + O4 * h1 + O5 * h2;
+    o2 = M * a2 + O6 * h0 + O7 * h1 + O8 * h2;
+    B[24] = o0; B[25] = o1; B[26] = o2;
+    o0 = h1 * a2 - h2 * a1;
+    o1 = h2 * a0 - h0 * a2;
+    o2 = h0 * a1 - h1 * a0;
+    {
+        /* the off-diagonal entries of Om J (Om rows O0..O2, O3..O5, O6..O8) */
+        const ffwd_real Jxx = Jm[0], Jxy = Jm[1], Jxz = Jm[2], Jyy = Jm[3], Jyz = Jm[4], Jzz = Jm[5];
+        const ffwd_real m01 = O0 * Jxy + O1 * Jyy + O2 * Jyz, m10 = O3 * Jxx + O4 * Jxy + O5 * Jxz;
+        const ffwd_real m02 = O0 * Jxz + O1 * Jyz + O2 * Jzz, m20 = O6 * Jxx + O7 * Jxy + O8 * Jxz;
+        const ffwd_real m12 = O3 * Jxz + O4 * Jyz + O5 * Jzz, m21 = O6 * Jxy + O7 * Jyy + O8 * Jyz;
+        B[27] = o0 + m21 - m12;
+        B[28] = o1 + m02 - m20;
+        B[29] = o2 + m10 - m01;
+    }
+}
+
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
  * linear acceleration al of each frame origin; base acceleration -g), the body forces
  * computed in the same outward pass, then summed inward. With
@@ -212,7 +241,7 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2, ww, o0, o1, o2;
+        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2, ww;
         ffwd_real O0, O1, O2, O3, O4, O5, O6, O7, O8;
         if (J->parent >= 0) {
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
@@ -299,26 +328,7 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         B[6] = O6; B[7] = O7; B[8] = O8;
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
-        {
-            const ffwd_real M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
-            o0 = M * a0 + O0 * h0 + O1 * h1 + O2 * h2;
-            o1 = M * a1 + O3 * h0 + O4 * h1 + O5 * h2;
-            o2 = M * a2 + O6 * h0 + O7 * h1 + O8 * h2;
-            B[24] = o0; B[25] = o1; B[26] = o2;
-            o0 = h1 * a2 - h2 * a1;
-            o1 = h2 * a0 - h0 * a2;
-            o2 = h0 * a1 - h1 * a0;
-        }
-        {
-            /* the off-diagonal entries of Om J (Om rows O0..O2, O3..O5, O6..O8) */
-            const ffwd_real Jxx = Jm[0], Jxy = Jm[1], Jxz = Jm[2], Jyy = Jm[3], Jyz = Jm[4], Jzz = Jm[5];
-            const ffwd_real m01 = O0 * Jxy + O1 * Jyy + O2 * Jyz, m10 = O3 * Jxx + O4 * Jxy + O5 * Jxz;
-            const ffwd_real m02 = O0 * Jxz + O1 * Jyz + O2 * Jzz, m20 = O6 * Jxx + O7 * Jxy + O8 * Jxz;
-            const ffwd_real m12 = O3 * Jxz + O4 * Jyz + O5 * Jzz, m21 = O6 * Jxy + O7 * Jyy + O8 * Jyz;
-            B[27] = o0 + m21 - m12;
-            B[28] = o1 + m02 - m20;
-            B[29] = o2 + m10 - m01;
-        }
+        body_force(B, th, Jm);
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
