@@ -344,11 +344,21 @@ static inline void second_moment(const ffwd_real *th, ffwd_real *J)
 /* |x| from the bits (no libm, no branch) */
 static inline ffwd_real abs_real(ffwd_real x)
 {
+#if defined(__GNUC__)
+    /* the compiler's own |x| (one and-not of the sign bit in a float register, never a
+     * library call) */
+#ifdef FFWD_SINGLE
+    return __builtin_fabsf(x);
+#else
+    return __builtin_fabs(x);
+#endif
+#else
     ffwd_bits_ u;
     memcpy(&u, &x, sizeof u);
     u &= ~((ffwd_bits_)1 << (8u * sizeof(ffwd_real) - 1u));
     memcpy(&x, &u, sizeof x);
     return x;
+#endif
 }
 
 /* clamp to [-1, 1] without a branch: (|x + 1| - |x - 1|) / 2 */
