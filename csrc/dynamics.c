@@ -231,8 +231,7 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     const uint32_t n = m->dof;
     uint32_t i;
-    ffwd_real jtp[6];
-    second_moment(tp, jtp);
+    const ffwd_real *jtp = w->scratch + FFWD_OFF_TPJ; /* J of tp (ffwd_load_tool_body_) */
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);

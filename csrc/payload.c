@@ -47,9 +47,11 @@ void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
     int k;
     for (k = 0; k < 10; k++)
         out[k] = base[k] + pay[k];
+    second_moment(out, w->scratch + FFWD_OFF_TPJ);
 }
 
-/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h):
+/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h),
+ * and its second moment beside it (FFWD_OFF_TPJ):
  * without a box the TP area already holds it (ffwd_fill_tool_body_); a box's payload is
  * copied under the hold, then rotated. */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
@@ -80,6 +82,7 @@ const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
         params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
         for (k = 0; k < 10; k++)
             out[k] = base[k] + rot[k];
+        second_moment(out, w->scratch + FFWD_OFF_TPJ);
     }
     return out;
 }

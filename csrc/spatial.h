@@ -64,6 +64,8 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 /* effective payload-lumped parameters of the tool_parent body (aligned frame), and a temp */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
+/* the second moment J (6, spatial.h second_moment) of the TP body, kept beside it */
+#define FFWD_OFF_TPJ    FFWD_OFF_TMP
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -97,9 +99,10 @@ int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
 int ffwd_finite_(const ffwd_real *x, uint32_t n);
 /* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
- * and returns a pointer to it (payload.c; readers never wait). */
+ * (and their second moment at FFWD_OFF_TPJ) and returns a pointer to it (payload.c;
+ * readers never wait). */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
-/* Fills w's TP area with body tool_parent plus the model's payload (payload.c); done by
+/* Fills w's TP area (and TPJ) with body tool_parent plus the model's payload (payload.c); done by
  * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
  * while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
