@@ -96,6 +96,13 @@ static const ffwd_real *body_params(const ffwd_model *m, const ffwd_work *w, con
     return (int32_t)i == m->tool_parent ? tp : KONST(w, i) + FFWD_K_TH;
 }
 
+/* second moment J of body i (tool_parent: of the body with payload, kept beside it by
+ * ffwd_load_tool_body_) */
+static const ffwd_real *body_second_moment(const ffwd_model *m, const ffwd_work *w, uint32_t i)
+{
+    return (int32_t)i == m->tool_parent ? w->scratch + FFWD_OFF_TPJ : KONST(w, i) + FFWD_K_J;
+}
+
 /* S . F for joint J (F a spatial force; S = e_z in the aligned frame) */
 static ffwd_real s_dot(const ffwd_joint *J, const ffwd_real *F)
 {
@@ -185,33 +192,60 @@ static int e0_kind(const ffwd_real *K)
     return (int)k;
 }
 
-/* The body force of id_pass from B(i) (Om at 0, al at 18): f = M al + Om h into 24 and
- * n = h x al + the axial vector of Om J - (Om J)^T into 27. Out of line: one copy of the
- * code, and its own registers (inlined, the loop around it spills). */
-static FFWD_NOINLINE void body_force(ffwd_real *B, const ffwd_real *th, const ffwd_real *Jm)
+/* Lanes of the body-force step of id_pass: two bodies at once where the target has
+ * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
+ * a scalar FPU). LANE_LOAD / LANE_STORE move entry k between the lanes and the bodies. */
+#if defined(__SSE2__) || defined(__ARM_NEON)
+#define FORCE_LANES 2
+#define LANE_LOAD(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
+#define LANE_STORE(p0, p1, k, x) ((p0)[k] = (x)[0], (p1)[k] = (x)[1])
+#else
+#define FORCE_LANES 1
+#define LANE_LOAD(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
+#define LANE_STORE(p0, p1, k, x) ((void)(p1), (p0)[k] = (x)[0])
+#endif
+
+/* The body forces of id_pass, lane l from B(l) (Om at 0, al at 18), th(l) and J(l):
+ * f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
+ * The bodies are independent, so every line is the same operation on each lane (one
+ * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
+ * of the code, with its own registers. */
+static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *t0,
+                                      const ffwd_real *t1, const ffwd_real *J0, const ffwd_real *J1)
 {
-    const ffwd_real M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
-    const ffwd_real a0 = B[18], a1 = B[19], a2 = B[20];
-    const ffwd_real O0 = B[0], O1 = B[1], O2 = B[2], O3 = B[3], O4 = B[4], O5 = B[5];
-    const ffwd_real O6 = B[6], O7 = B[7], O8 = B[8];
-    ffwd_real o0, o1, o2;
-    o0 = M * a0 + O0 * h0 + O1 * h1 + O2 * h2;
-    o1 = M * a1 + O3 * h0 + O4 * h1 + O5 * h2;
-    o2 = M * a2 + O6 * h0 + O7 * h1 + O8 * h2;
-    B[24] = o0; B[25] = o1; B[26] = o2;
-    o0 = h1 * a2 - h2 * a1;
-    o1 = h2 * a0 - h0 * a2;
-    o2 = h0 * a1 - h1 * a0;
-    {
-        /* the off-diagonal entries of Om J (Om rows O0..O2, O3..O5, O6..O8) */
-        const ffwd_real Jxx = Jm[0], Jxy = Jm[1], Jxz = Jm[2], Jyy = Jm[3], Jyz = Jm[4], Jzz = Jm[5];
-        const ffwd_real m01 = O0 * Jxy + O1 * Jyy + O2 * Jyz, m10 = O3 * Jxx + O4 * Jxy + O5 * Jxz;
-        const ffwd_real m02 = O0 * Jxz + O1 * Jyz + O2 * Jzz, m20 = O6 * Jxx + O7 * Jxy + O8 * Jxz;
-        const ffwd_real m12 = O3 * Jxz + O4 * Jyz + O5 * Jzz, m21 = O6 * Jxy + O7 * Jyy + O8 * Jyz;
-        B[27] = o0 + m21 - m12;
-        B[28] = o1 + m02 - m20;
-        B[29] = o2 + m10 - m01;
+    ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
+    ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
+    ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
+    ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
+    ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
+    ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
+    ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
+    ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
+    int l;
+    LANE_LOAD(M, t0, t1, 0); LANE_LOAD(h0, t0, t1, 1); LANE_LOAD(h1, t0, t1, 2); LANE_LOAD(h2, t0, t1, 3);
+    LANE_LOAD(a0, B0, B1, 18); LANE_LOAD(a1, B0, B1, 19); LANE_LOAD(a2, B0, B1, 20);
+    LANE_LOAD(O0, B0, B1, 0); LANE_LOAD(O1, B0, B1, 1); LANE_LOAD(O2, B0, B1, 2);
+    LANE_LOAD(O3, B0, B1, 3); LANE_LOAD(O4, B0, B1, 4); LANE_LOAD(O5, B0, B1, 5);
+    LANE_LOAD(O6, B0, B1, 6); LANE_LOAD(O7, B0, B1, 7); LANE_LOAD(O8, B0, B1, 8);
+    LANE_LOAD(Jxx, J0, J1, 0); LANE_LOAD(Jxy, J0, J1, 1); LANE_LOAD(Jxz, J0, J1, 2);
+    LANE_LOAD(Jyy, J0, J1, 3); LANE_LOAD(Jyz, J0, J1, 4); LANE_LOAD(Jzz, J0, J1, 5);
+    for (l = 0; l < FORCE_LANES; l++) {
+        /* the off-diagonal entries mjk of Om J (Om rows O0..O2, O3..O5, O6..O8) */
+        const ffwd_real m01 = O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l];
+        const ffwd_real m10 = O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l];
+        const ffwd_real m02 = O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l];
+        const ffwd_real m20 = O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l];
+        const ffwd_real m12 = O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l];
+        const ffwd_real m21 = O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l];
+        f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
+        f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
+        f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
+        n0[l] = (h1[l] * a2[l] - h2[l] * a1[l]) + m21 - m12;
+        n1[l] = (h2[l] * a0[l] - h0[l] * a2[l]) + m02 - m20;
+        n2[l] = (h0[l] * a1[l] - h1[l] * a0[l]) + m10 - m01;
     }
+    LANE_STORE(B0, B1, 24, f0); LANE_STORE(B0, B1, 25, f1); LANE_STORE(B0, B1, 26, f2);
+    LANE_STORE(B0, B1, 27, n0); LANE_STORE(B0, B1, 28, n1); LANE_STORE(B0, B1, 29, n2);
 }
 
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
@@ -231,12 +265,9 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     const uint32_t n = m->dof;
     uint32_t i;
-    const ffwd_real *jtp = w->scratch + FFWD_OFF_TPJ; /* J of tp (ffwd_load_tool_body_) */
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
-        const ffwd_real *th = body_params(m, w, tp, i);
-        const ffwd_real *Jm = (int32_t)i == m->tool_parent ? jtp : K + FFWD_K_J;
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
@@ -292,19 +323,13 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
             if (rev) {
-                /* w = e_z dq, wd = e_z ddq: the body force with the zeros taken out */
-                const ffwd_real d2q = dq * dq, M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
+                /* w = e_z dq, wd = e_z ddq: Om with the zeros taken out */
+                const ffwd_real d2q = dq * dq;
                 B[0] = B[4] = -d2q; B[1] = -ddq; B[3] = ddq;
                 B[2] = B[5] = B[6] = B[7] = B[8] = FR(0);
                 B[12] = B[13] = B[15] = B[16] = FR(0);
                 B[14] = dq; B[17] = ddq;
                 B[18] = a0; B[19] = a1; B[20] = a2;
-                B[24] = M * a0 - ddq * h1 - d2q * h0;
-                B[25] = M * a1 + ddq * h0 - d2q * h1;
-                B[26] = M * a2;
-                B[27] = ddq * th[6] - d2q * th[8] + h1 * a2 - h2 * a1;
-                B[28] = ddq * th[8] + d2q * th[6] + h2 * a0 - h0 * a2;
-                B[29] = ddq * th[9] + h0 * a1 - h1 * a0;
                 continue;
             }
         }
@@ -327,7 +352,11 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         B[6] = O6; B[7] = O7; B[8] = O8;
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
-        body_force(B, th, Jm);
+    }
+    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
+        const uint32_t j = FORCE_LANES > 1 && i + 1u < n ? i + 1u : i;
+        body_forces(BODY(w, i), BODY(w, j), body_params(m, w, tp, i), body_params(m, w, tp, j),
+                     body_second_moment(m, w, i), body_second_moment(m, w, j));
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
