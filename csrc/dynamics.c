@@ -205,8 +205,8 @@ static int e0_kind(const ffwd_real *K)
 #define LANE_STORE(p0, p1, k, x) ((void)(p1), (p0)[k] = (x)[0])
 #endif
 
-/* The body forces of id_pass, lane l from B(l) (Om at 0, al at 18), th(l) and J(l):
- * f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
+/* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
+ * and J(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
  * The bodies are independent, so every line is the same operation on each lane (one
  * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
  * of the code, with its own registers. */
@@ -215,6 +215,8 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
 {
     ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
     ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
+    ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
+    ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
     ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
     ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
     ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
@@ -224,9 +226,18 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
     int l;
     LANE_LOAD(M, t0, t1, 0); LANE_LOAD(h0, t0, t1, 1); LANE_LOAD(h1, t0, t1, 2); LANE_LOAD(h2, t0, t1, 3);
     LANE_LOAD(a0, B0, B1, 18); LANE_LOAD(a1, B0, B1, 19); LANE_LOAD(a2, B0, B1, 20);
-    LANE_LOAD(O0, B0, B1, 0); LANE_LOAD(O1, B0, B1, 1); LANE_LOAD(O2, B0, B1, 2);
-    LANE_LOAD(O3, B0, B1, 3); LANE_LOAD(O4, B0, B1, 4); LANE_LOAD(O5, B0, B1, 5);
-    LANE_LOAD(O6, B0, B1, 6); LANE_LOAD(O7, B0, B1, 7); LANE_LOAD(O8, B0, B1, 8);
+    LANE_LOAD(w0, B0, B1, 12); LANE_LOAD(w1, B0, B1, 13); LANE_LOAD(w2, B0, B1, 14);
+    LANE_LOAD(d0, B0, B1, 15); LANE_LOAD(d1, B0, B1, 16); LANE_LOAD(d2, B0, B1, 17);
+    for (l = 0; l < FORCE_LANES; l++) {
+        /* Om = [wd]x + [w]x [w]x */
+        const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
+        const ffwd_real ww = x0 + x1 + x2;
+        const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
+        O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
+        O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
+        O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
+        O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+    }
     LANE_LOAD(Jxx, J0, J1, 0); LANE_LOAD(Jxy, J0, J1, 1); LANE_LOAD(Jxz, J0, J1, 2);
     LANE_LOAD(Jyy, J0, J1, 3); LANE_LOAD(Jyz, J0, J1, 4); LANE_LOAD(Jzz, J0, J1, 5);
     for (l = 0; l < FORCE_LANES; l++) {
@@ -271,14 +282,16 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2, ww;
-        ffwd_real O0, O1, O2, O3, O4, O5, O6, O7, O8;
+        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
+            /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
-            x0 = P[18] + P[0] * p0 + P[1] * p1 + P[2] * p2;
-            x1 = P[19] + P[3] * p0 + P[4] * p1 + P[5] * p2;
-            x2 = P[20] + P[6] * p0 + P[7] * p1 + P[8] * p2;
+            const ffwd_real t0 = P[13] * p2 - P[14] * p1, t1 = P[14] * p0 - P[12] * p2;
+            const ffwd_real t2 = P[12] * p1 - P[13] * p0;
+            x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
+            x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
+            x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
             switch (kind) {
             case FFWD_KIND_I:
                 RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
@@ -322,16 +335,6 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             E0T(kind, K, -g[0], -g[1], -g[2], u0, u1, u2);
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
-            if (rev) {
-                /* w = e_z dq, wd = e_z ddq: Om with the zeros taken out */
-                const ffwd_real d2q = dq * dq;
-                B[0] = B[4] = -d2q; B[1] = -ddq; B[3] = ddq;
-                B[2] = B[5] = B[6] = B[7] = B[8] = FR(0);
-                B[12] = B[13] = B[15] = B[16] = FR(0);
-                B[14] = dq; B[17] = ddq;
-                B[18] = a0; B[19] = a1; B[20] = a2;
-                continue;
-            }
         }
         if (rev) {
             /* wd += w x e_z dq + e_z ddq; w += e_z dq */
@@ -341,15 +344,6 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             /* al += 2 w x e_z dq + e_z ddq */
             a0 += FR(2) * w1 * dq; a1 -= FR(2) * w0 * dq; a2 += ddq;
         }
-        x0 = w0 * w0; x1 = w1 * w1; x2 = w2 * w2;
-        ww = x0 + x1 + x2;
-        O0 = x0 - ww; O4 = x1 - ww; O8 = x2 - ww;
-        x0 = w0 * w1; x1 = w0 * w2; x2 = w1 * w2;
-        O1 = x0 - d2; O3 = x0 + d2;
-        O2 = x1 + d1; O6 = x1 - d1;
-        O5 = x2 - d0; O7 = x2 + d0;
-        B[0] = O0; B[1] = O1; B[2] = O2; B[3] = O3; B[4] = O4; B[5] = O5;
-        B[6] = O6; B[7] = O7; B[8] = O8;
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
     }
