@@ -10,11 +10,10 @@
  * full R = E0 Rz(theta) in Featherstone's spatial form.
  * Inverse dynamics and the torque parts use the 3-D vector form of Newton-Euler
  * (angular velocity and acceleration, linear acceleration of the frame origin: no linear
- * velocity is needed), the body forces computed in the outward pass.
+ * velocity is needed).
  *
  * Per-body state lives in the work scratch: B(i) = R[9] p[3] then 18 numbers whose
- * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n); inverse
- * dynamics keeps [wd]x + [w]x[w]x in the place of R.
+ * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n).
  */
 #include "spatial.h"
 
@@ -260,15 +259,16 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
 }
 
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
- * linear acceleration al of each frame origin; base acceleration -g), the body forces
- * computed in the same outward pass, then summed inward. With
+ * linear acceleration al of each frame origin; base acceleration -g): w, wd, al outward,
+ * then the body forces (body_forces, two bodies at a time), then the forces summed
+ * inward. With
  *   Om = [wd]x + [w]x [w]x  (so that wd x r + w x (w x r) = Om r),
- * the child's origin acceleration is al + Om p and the body force is
+ * the child's origin acceleration is al + wd x p + w x (w x p) and the body force is
  *   f = m al + Om h,   n = Io wd + w x (Io w) + h x al   (h = m c, Io about the origin),
  * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
- * B(i): Om at 0, (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
+ * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
 static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
