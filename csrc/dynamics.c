@@ -39,9 +39,15 @@ void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
     for (i = 0; i < n; i++)
         qb[i] = rv[i] * q[i];
 #else
-    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20 */
-    for (i = 0; i < n; i++)
-        qb[i] = rv[i] * q[i] + al[i];
+    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
+     * time (one vector instruction each where the target has two-lane vectors) */
+    for (i = 0; i + 1u < n; i += 2u) {
+        const ffwd_real x0 = rv[i] * q[i] + al[i], x1 = rv[i + 1u] * q[i + 1u] + al[i + 1u];
+        qb[i] = x0;
+        qb[i + 1u] = x1;
+    }
+    if (n & 1u)
+        qb[n - 1u] = rv[n - 1u] * q[n - 1u] + al[n - 1u];
 #endif
     qb[n] = FR(0);
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
