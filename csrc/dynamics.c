@@ -421,7 +421,7 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
     if (id_pass(m, w, tp, qd, qdd, m->gravity, tau, 1))
         return FFWD_OK;
@@ -513,7 +513,7 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
             return st;
     }
     ffwd_trig_(m, w, q);
-    if (gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau))
+    if (gravity_pass(m, w, ffwd_tool_body_(m, w), tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -538,7 +538,7 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
@@ -574,7 +574,7 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
             return st;
     }
     n = m->dof;
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     ffwd_zero_(M, n * n);
     for (i = 0; i < n; i++) {
@@ -708,7 +708,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
             return st;
     }
     n = m->dof;
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     /* pass 1: velocities, bias accelerations c = v x S qd, rigid inertias, bias forces */
     {

@@ -102,6 +102,11 @@ int ffwd_finite_(const ffwd_real *x, uint32_t n);
  * (and their second moment at FFWD_OFF_TPJ) and returns a pointer to it (payload.c;
  * readers never wait). */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* The same without a call where no payload box is in use (the TP area is filled then) */
+static inline const ffwd_real *ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
+{
+    return w->payload == NULL ? w->scratch + FFWD_OFF_TP : ffwd_load_tool_body_(m, w);
+}
 /* Fills w's TP area (and TPJ) with body tool_parent plus the model's payload (payload.c); done by
  * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
  * while no box is in use. */
