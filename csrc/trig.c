@@ -63,6 +63,7 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
                         uint32_t npairs)
 {
     const ffwd_bits_ one = 1u, sign = one << (8u * sizeof(ffwd_real) - 1u);
+    const unsigned top1 = 8u * (unsigned)sizeof(ffwd_real) - 2u;
     uint32_t p;
     for (p = 0; p < npairs; p++) {
         ffwd_real xv[LANES], kv[LANES], k[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
@@ -108,8 +109,9 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
         memcpy(uc, cr, sizeof uc);
         for (l = 0; l < LANES; l++) {
             sw[l] = (ffwd_bits_)0 - (b[l] & one);
-            os[l] = ((uc[l] & sw[l]) | (us[l] & ~sw[l])) ^ (((b[l] >> 1) & one) * sign);
-            oc[l] = ((us[l] & sw[l]) | (uc[l] & ~sw[l])) ^ ((((b[l] + one) >> 1) & one) * sign);
+            /* bit 1 of k (of k + 1 for cos) shifted into the sign bit */
+            os[l] = ((uc[l] & sw[l]) | (us[l] & ~sw[l])) ^ ((b[l] << top1) & sign);
+            oc[l] = ((us[l] & sw[l]) | (uc[l] & ~sw[l])) ^ (((b[l] + one) << top1) & sign);
         }
         memcpy(s + LANES * p, os, sizeof os);
         memcpy(c + LANES * p, oc, sizeof oc);
