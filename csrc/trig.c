@@ -108,10 +108,11 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
         memcpy(us, sr, sizeof us);
         memcpy(uc, cr, sizeof uc);
         for (l = 0; l < LANES; l++) {
-            sw[l] = (ffwd_bits_)0 - (b[l] & one);
-            /* bit 1 of k (of k + 1 for cos) shifted into the sign bit */
-            os[l] = ((uc[l] & sw[l]) | (us[l] & ~sw[l])) ^ ((b[l] << top1) & sign);
-            oc[l] = ((us[l] & sw[l]) | (uc[l] & ~sw[l])) ^ (((b[l] + one) << top1) & sign);
+            /* k odd: swap sin and cos (both xor their difference); bit 1 of k (of k + 1
+             * for cos) shifted into the sign bit */
+            sw[l] = (us[l] ^ uc[l]) & ((ffwd_bits_)0 - (b[l] & one));
+            os[l] = (us[l] ^ sw[l]) ^ ((b[l] << top1) & sign);
+            oc[l] = (uc[l] ^ sw[l]) ^ (((b[l] + one) << top1) & sign);
         }
         memcpy(s + LANES * p, os, sizeof os);
         memcpy(c + LANES * p, oc, sizeof oc);
