@@ -55,9 +55,10 @@ static ffwd_real cos_tail(ffwd_real z)
 }
 
 /* sin and cos of x[0 .. 2*npairs), written two lanes at a time so that the compiler can
- * keep both lanes in one vector register: k is read from the bits of the rounded value
- * (no float-to-integer conversion, so no undefined behaviour for huge x), and the
- * quadrant is applied with bit masks (swap s/c, flip the sign bit), no table, no branch. */
+ * keep both lanes in one vector register: k is the rounded value less the magic constant
+ * and its quadrant is read from the bits of the rounded value (no float-to-integer
+ * conversion, so no undefined behaviour for huge x), and the quadrant is applied with
+ * bit masks (swap s/c, flip the sign bit), no table, no branch. */
 #define LANES 2
 void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd_real *restrict c,
                         uint32_t npairs)
@@ -77,11 +78,7 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
             kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
         memcpy(b, kv, sizeof b);
         for (l = 0; l < LANES; l++)
-#ifdef FFWD_SINGLE
-            k[l] = (ffwd_real)((int32_t)(b[l] & 0x7fffffu) - (int32_t)0x400000);
-#else
-            k[l] = (ffwd_real)(int32_t)(uint32_t)b[l];
-#endif
+            k[l] = kv[l] - ROUND_MAGIC; /* exact: kv is ROUND_MAGIC + k */
         for (l = 0; l < LANES; l++) {
             t1[l] = xv[l] - k[l] * P1;
             hi[l] = t1[l] - k[l] * P2;
