@@ -67,7 +67,7 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
     const unsigned top1 = 8u * (unsigned)sizeof(ffwd_real) - 2u;
     uint32_t p;
     for (p = 0; p < npairs; p++) {
-        ffwd_real xv[LANES], kv[LANES], k[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
+        ffwd_real xv[LANES], kv[LANES], nk[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
         ffwd_real lo[LANES], rh[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
         ffwd_real hz[LANES], wv[LANES];
         ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
@@ -78,21 +78,22 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
             kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
         memcpy(b, kv, sizeof b);
         for (l = 0; l < LANES; l++)
-            k[l] = kv[l] - ROUND_MAGIC; /* exact: kv is ROUND_MAGIC + k */
+            nk[l] = ROUND_MAGIC - kv[l]; /* -k, exact: kv is ROUND_MAGIC + k */
         for (l = 0; l < LANES; l++) {
-            t1[l] = xv[l] - k[l] * P1;
-            hi[l] = t1[l] - k[l] * P2;
+            /* nk = -k: each product once, no negation */
+            t1[l] = xv[l] + nk[l] * P1;
+            hi[l] = t1[l] + nk[l] * P2;
             bb[l] = hi[l] - t1[l];
-            e1[l] = (t1[l] - (hi[l] - bb[l])) + (-k[l] * P2 - bb[l]);
+            e1[l] = (t1[l] - (hi[l] - bb[l])) + (nk[l] * P2 - bb[l]);
 #ifdef FFWD_SINGLE
             {
-                ffwd_real h2 = hi[l] - k[l] * P3, b2 = h2 - hi[l];
-                ffwd_real e2 = (hi[l] - (h2 - b2)) + (-k[l] * P3 - b2);
-                lo[l] = (e1[l] + e2) - k[l] * P4;
+                ffwd_real h2 = hi[l] + nk[l] * P3, b2 = h2 - hi[l];
+                ffwd_real e2 = (hi[l] - (h2 - b2)) + (nk[l] * P3 - b2);
+                lo[l] = (e1[l] + e2) + nk[l] * P4;
                 hi[l] = h2;
             }
 #else
-            lo[l] = (e1[l] - k[l] * P3) - k[l] * P4;
+            lo[l] = (e1[l] + nk[l] * P3) + nk[l] * P4;
 #endif
             rh[l] = hi[l] + lo[l];
             rl[l] = lo[l] - (rh[l] - hi[l]); /* fast two-sum: |lo| <= |hi| up to rounding */
