@@ -10,11 +10,10 @@
  * full R = E0 Rz(theta) in Featherstone's spatial form.
  * Inverse dynamics and the torque parts use the 3-D vector form of Newton-Euler
  * (angular velocity and acceleration, linear acceleration of the frame origin: no linear
- * velocity is needed), the body forces computed in the outward pass.
+ * velocity is needed).
  *
  * Per-body state lives in the work scratch: B(i) = R[9] p[3] then 18 numbers whose
- * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n); inverse
- * dynamics keeps [wd]x + [w]x[w]x in the place of R.
+ * meaning depends on the function (spatial v[6] a[6] f[6], or w wd al . f n).
  */
 #include "spatial.h"
 
@@ -40,9 +39,15 @@ void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
     for (i = 0; i < n; i++)
         qb[i] = rv[i] * q[i];
 #else
-    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20 */
-    for (i = 0; i < n; i++)
-        qb[i] = rv[i] * q[i] + al[i];
+    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
+     * time (one vector instruction each where the target has two-lane vectors) */
+    for (i = 0; i + 1u < n; i += 2u) {
+        const ffwd_real x0 = rv[i] * q[i] + al[i], x1 = rv[i + 1u] * q[i + 1u] + al[i + 1u];
+        qb[i] = x0;
+        qb[i + 1u] = x1;
+    }
+    if (n & 1u)
+        qb[n - 1u] = rv[n - 1u] * q[n - 1u] + al[n - 1u];
 #endif
     qb[n] = FR(0);
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
@@ -94,6 +99,13 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 static const ffwd_real *body_params(const ffwd_model *m, const ffwd_work *w, const ffwd_real *tp, uint32_t i)
 {
     return (int32_t)i == m->tool_parent ? tp : KONST(w, i) + FFWD_K_TH;
+}
+
+/* second moment J of body i (tool_parent: of the body with payload, kept beside it by
+ * ffwd_load_tool_body_) */
+static const ffwd_real *body_second_moment(const ffwd_model *m, const ffwd_work *w, uint32_t i)
+{
+    return (int32_t)i == m->tool_parent ? w->scratch + FFWD_OFF_TPJ : KONST(w, i) + FFWD_K_J;
 }
 
 /* S . F for joint J (F a spatial force; S = e_z in the aligned frame) */
@@ -185,16 +197,84 @@ static int e0_kind(const ffwd_real *K)
     return (int)k;
 }
 
+/* Lanes of the body-force step of id_pass: two bodies at once where the target has
+ * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
+ * a scalar FPU). LANE_LOAD / LANE_STORE move entry k between the lanes and the bodies. */
+#if defined(__SSE2__) || defined(__ARM_NEON)
+#define FORCE_LANES 2
+#define LANE_LOAD(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
+#define LANE_STORE(p0, p1, k, x) ((p0)[k] = (x)[0], (p1)[k] = (x)[1])
+#else
+#define FORCE_LANES 1
+#define LANE_LOAD(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
+#define LANE_STORE(p0, p1, k, x) ((void)(p1), (p0)[k] = (x)[0])
+#endif
+
+/* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
+ * and J(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
+ * The bodies are independent, so every line is the same operation on each lane (one
+ * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
+ * of the code, with its own registers. */
+static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *t0,
+                                      const ffwd_real *t1, const ffwd_real *J0, const ffwd_real *J1)
+{
+    ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
+    ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
+    ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
+    ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
+    ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
+    ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
+    ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
+    ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
+    ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
+    ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
+    int l;
+    LANE_LOAD(M, t0, t1, 0); LANE_LOAD(h0, t0, t1, 1); LANE_LOAD(h1, t0, t1, 2); LANE_LOAD(h2, t0, t1, 3);
+    LANE_LOAD(a0, B0, B1, 18); LANE_LOAD(a1, B0, B1, 19); LANE_LOAD(a2, B0, B1, 20);
+    LANE_LOAD(w0, B0, B1, 12); LANE_LOAD(w1, B0, B1, 13); LANE_LOAD(w2, B0, B1, 14);
+    LANE_LOAD(d0, B0, B1, 15); LANE_LOAD(d1, B0, B1, 16); LANE_LOAD(d2, B0, B1, 17);
+    for (l = 0; l < FORCE_LANES; l++) {
+        /* Om = [wd]x + [w]x [w]x */
+        const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
+        const ffwd_real ww = x0 + x1 + x2;
+        const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
+        O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
+        O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
+        O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
+        O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+    }
+    LANE_LOAD(Jxx, J0, J1, 0); LANE_LOAD(Jxy, J0, J1, 1); LANE_LOAD(Jxz, J0, J1, 2);
+    LANE_LOAD(Jyy, J0, J1, 3); LANE_LOAD(Jyz, J0, J1, 4); LANE_LOAD(Jzz, J0, J1, 5);
+    for (l = 0; l < FORCE_LANES; l++) {
+        /* the off-diagonal entries mjk of Om J (Om rows O0..O2, O3..O5, O6..O8) */
+        const ffwd_real m01 = O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l];
+        const ffwd_real m10 = O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l];
+        const ffwd_real m02 = O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l];
+        const ffwd_real m20 = O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l];
+        const ffwd_real m12 = O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l];
+        const ffwd_real m21 = O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l];
+        f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
+        f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
+        f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
+        n0[l] = (h1[l] * a2[l] - h2[l] * a1[l]) + m21 - m12;
+        n1[l] = (h2[l] * a0[l] - h0[l] * a2[l]) + m02 - m20;
+        n2[l] = (h0[l] * a1[l] - h1[l] * a0[l]) + m10 - m01;
+    }
+    LANE_STORE(B0, B1, 24, f0); LANE_STORE(B0, B1, 25, f1); LANE_STORE(B0, B1, 26, f2);
+    LANE_STORE(B0, B1, 27, n0); LANE_STORE(B0, B1, 28, n1); LANE_STORE(B0, B1, 29, n2);
+}
+
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
- * linear acceleration al of each frame origin; base acceleration -g), the body forces
- * computed in the same outward pass, then summed inward. With
+ * linear acceleration al of each frame origin; base acceleration -g): w, wd, al outward,
+ * then the body forces (body_forces, two bodies at a time), then the forces summed
+ * inward. With
  *   Om = [wd]x + [w]x [w]x  (so that wd x r + w x (w x r) = Om r),
- * the child's origin acceleration is al + Om p and the body force is
+ * the child's origin acceleration is al + wd x p + w x (w x p) and the body force is
  *   f = m al + Om h,   n = Io wd + w x (Io w) + h x al   (h = m c, Io about the origin),
  * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
- * B(i): Om at 0, (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
+ * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
 static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
@@ -202,24 +282,22 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     const uint32_t n = m->dof;
     uint32_t i;
-    ffwd_real jtp[6];
-    second_moment(tp, jtp);
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
-        const ffwd_real *th = body_params(m, w, tp, i);
-        const ffwd_real *Jm = (int32_t)i == m->tool_parent ? jtp : K + FFWD_K_J;
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2, ww, o0, o1, o2;
-        ffwd_real O0, O1, O2, O3, O4, O5, O6, O7, O8;
+        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
+            /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
-            x0 = P[18] + P[0] * p0 + P[1] * p1 + P[2] * p2;
-            x1 = P[19] + P[3] * p0 + P[4] * p1 + P[5] * p2;
-            x2 = P[20] + P[6] * p0 + P[7] * p1 + P[8] * p2;
+            const ffwd_real t0 = P[13] * p2 - P[14] * p1, t1 = P[14] * p0 - P[12] * p2;
+            const ffwd_real t2 = P[12] * p1 - P[13] * p0;
+            x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
+            x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
+            x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
             switch (kind) {
             case FFWD_KIND_I:
                 RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
@@ -263,22 +341,6 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             E0T(kind, K, -g[0], -g[1], -g[2], u0, u1, u2);
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
-            if (rev) {
-                /* w = e_z dq, wd = e_z ddq: the body force with the zeros taken out */
-                const ffwd_real d2q = dq * dq, M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
-                B[0] = B[4] = -d2q; B[1] = -ddq; B[3] = ddq;
-                B[2] = B[5] = B[6] = B[7] = B[8] = FR(0);
-                B[12] = B[13] = B[15] = B[16] = FR(0);
-                B[14] = dq; B[17] = ddq;
-                B[18] = a0; B[19] = a1; B[20] = a2;
-                B[24] = M * a0 - ddq * h1 - d2q * h0;
-                B[25] = M * a1 + ddq * h0 - d2q * h1;
-                B[26] = M * a2;
-                B[27] = ddq * th[6] - d2q * th[8] + h1 * a2 - h2 * a1;
-                B[28] = ddq * th[8] + d2q * th[6] + h2 * a0 - h0 * a2;
-                B[29] = ddq * th[9] + h0 * a1 - h1 * a0;
-                continue;
-            }
         }
         if (rev) {
             /* wd += w x e_z dq + e_z ddq; w += e_z dq */
@@ -288,37 +350,13 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             /* al += 2 w x e_z dq + e_z ddq */
             a0 += FR(2) * w1 * dq; a1 -= FR(2) * w0 * dq; a2 += ddq;
         }
-        x0 = w0 * w0; x1 = w1 * w1; x2 = w2 * w2;
-        ww = x0 + x1 + x2;
-        O0 = x0 - ww; O4 = x1 - ww; O8 = x2 - ww;
-        x0 = w0 * w1; x1 = w0 * w2; x2 = w1 * w2;
-        O1 = x0 - d2; O3 = x0 + d2;
-        O2 = x1 + d1; O6 = x1 - d1;
-        O5 = x2 - d0; O7 = x2 + d0;
-        B[0] = O0; B[1] = O1; B[2] = O2; B[3] = O3; B[4] = O4; B[5] = O5;
-        B[6] = O6; B[7] = O7; B[8] = O8;
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
-        {
-            const ffwd_real M = th[0], h0 = th[1], h1 = th[2], h2 = th[3];
-            o0 = M * a0 + O0 * h0 + O1 * h1 + O2 * h2;
-            o1 = M * a1 + O3 * h0 + O4 * h1 + O5 * h2;
-            o2 = M * a2 + O6 * h0 + O7 * h1 + O8 * h2;
-            B[24] = o0; B[25] = o1; B[26] = o2;
-            o0 = h1 * a2 - h2 * a1;
-            o1 = h2 * a0 - h0 * a2;
-            o2 = h0 * a1 - h1 * a0;
-        }
-        {
-            /* the off-diagonal entries of Om J (Om rows O0..O2, O3..O5, O6..O8) */
-            const ffwd_real Jxx = Jm[0], Jxy = Jm[1], Jxz = Jm[2], Jyy = Jm[3], Jyz = Jm[4], Jzz = Jm[5];
-            const ffwd_real m01 = O0 * Jxy + O1 * Jyy + O2 * Jyz, m10 = O3 * Jxx + O4 * Jxy + O5 * Jxz;
-            const ffwd_real m02 = O0 * Jxz + O1 * Jyz + O2 * Jzz, m20 = O6 * Jxx + O7 * Jxy + O8 * Jxz;
-            const ffwd_real m12 = O3 * Jxz + O4 * Jyz + O5 * Jzz, m21 = O6 * Jxy + O7 * Jyy + O8 * Jyz;
-            B[27] = o0 + m21 - m12;
-            B[28] = o1 + m02 - m20;
-            B[29] = o2 + m10 - m01;
-        }
+    }
+    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
+        const uint32_t j = FORCE_LANES > 1 && i + 1u < n ? i + 1u : i;
+        body_forces(BODY(w, i), BODY(w, j), body_params(m, w, tp, i), body_params(m, w, tp, j),
+                     body_second_moment(m, w, i), body_second_moment(m, w, j));
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
@@ -373,13 +411,17 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const int shape[1] = { FFWD_SHAPE_N };
     const ffwd_real *tp;
     ffwd_status st;
-    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+    /* qd and qdd are not scanned here: a non-finite qd[i] or qdd[i] makes tau[i]
+     * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
+     * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
+     * tau zeroed, as the entry check would */
+    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
     if (id_pass(m, w, tp, qd, qdd, m->gravity, tau, 1))
         return FFWD_OK;
@@ -471,7 +513,7 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
             return st;
     }
     ffwd_trig_(m, w, q);
-    if (gravity_pass(m, w, ffwd_load_tool_body_(m, w), tau))
+    if (gravity_pass(m, w, ffwd_tool_body_(m, w), tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -496,7 +538,7 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
@@ -532,7 +574,7 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
             return st;
     }
     n = m->dof;
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     ffwd_zero_(M, n * n);
     for (i = 0; i < n; i++) {
@@ -666,7 +708,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
             return st;
     }
     n = m->dof;
-    tp = ffwd_load_tool_body_(m, w);
+    tp = ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     /* pass 1: velocities, bias accelerations c = v x S qd, rigid inertias, bias forces */
     {

@@ -39,6 +39,12 @@ static uint32_t state_load(ffwd_payload_box *b) { return atomic_load(&b->state);
 
 /* The TP area for the model's own payload: body tool_parent plus the payload rotated by
  * ffwd_work_init, both in the aligned tool_parent frame. */
+/* the second moment of the TP body beside it (FFWD_OFF_TPJ), one copy of the code */
+static FFWD_NOINLINE void tool_body_moment(ffwd_work *w)
+{
+    second_moment(w->scratch + FFWD_OFF_TP, w->scratch + FFWD_OFF_TPJ);
+}
+
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
     const ffwd_real *base = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
@@ -47,9 +53,11 @@ void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
     int k;
     for (k = 0; k < 10; k++)
         out[k] = base[k] + pay[k];
+    tool_body_moment(w);
 }
 
-/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h):
+/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h),
+ * and its second moment beside it (FFWD_OFF_TPJ):
  * without a box the TP area already holds it (ffwd_fill_tool_body_); a box's payload is
  * copied under the hold, then rotated. */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
@@ -80,6 +88,7 @@ const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
         params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
         for (k = 0; k < 10; k++)
             out[k] = base[k] + rot[k];
+        tool_body_moment(w);
     }
     return out;
 }

@@ -64,6 +64,8 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 /* effective payload-lumped parameters of the tool_parent body (aligned frame), and a temp */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
+/* the second moment J (6, spatial.h second_moment) of the TP body, kept beside it */
+#define FFWD_OFF_TPJ    FFWD_OFF_TMP
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -97,9 +99,15 @@ int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
 int ffwd_finite_(const ffwd_real *x, uint32_t n);
 /* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
- * and returns a pointer to it (payload.c; readers never wait). */
+ * (and their second moment at FFWD_OFF_TPJ) and returns a pointer to it (payload.c;
+ * readers never wait). */
 const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
-/* Fills w's TP area with body tool_parent plus the model's payload (payload.c); done by
+/* The same without a call where no payload box is in use (the TP area is filled then) */
+static inline const ffwd_real *ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
+{
+    return w->payload == NULL ? w->scratch + FFWD_OFF_TP : ffwd_load_tool_body_(m, w);
+}
+/* Fills w's TP area (and TPJ) with body tool_parent plus the model's payload (payload.c); done by
  * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
  * while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
@@ -344,11 +352,21 @@ static inline void second_moment(const ffwd_real *th, ffwd_real *J)
 /* |x| from the bits (no libm, no branch) */
 static inline ffwd_real abs_real(ffwd_real x)
 {
+#if defined(__GNUC__)
+    /* the compiler's own |x| (one and-not of the sign bit in a float register, never a
+     * library call) */
+#ifdef FFWD_SINGLE
+    return __builtin_fabsf(x);
+#else
+    return __builtin_fabs(x);
+#endif
+#else
     ffwd_bits_ u;
     memcpy(&u, &x, sizeof u);
     u &= ~((ffwd_bits_)1 << (8u * sizeof(ffwd_real) - 1u));
     memcpy(&x, &u, sizeof x);
     return x;
+#endif
 }
 
 /* clamp to [-1, 1] without a branch: (|x + 1| - |x - 1|) / 2 */

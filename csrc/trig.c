@@ -55,17 +55,19 @@ static ffwd_real cos_tail(ffwd_real z)
 }
 
 /* sin and cos of x[0 .. 2*npairs), written two lanes at a time so that the compiler can
- * keep both lanes in one vector register: k is read from the bits of the rounded value
- * (no float-to-integer conversion, so no undefined behaviour for huge x), and the
- * quadrant is applied with bit masks (swap s/c, flip the sign bit), no table, no branch. */
+ * keep both lanes in one vector register: k is the rounded value less the magic constant
+ * and its quadrant is read from the bits of the rounded value (no float-to-integer
+ * conversion, so no undefined behaviour for huge x), and the quadrant is applied with
+ * bit masks (swap s/c, flip the sign bit), no table, no branch. */
 #define LANES 2
 void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd_real *restrict c,
                         uint32_t npairs)
 {
     const ffwd_bits_ one = 1u, sign = one << (8u * sizeof(ffwd_real) - 1u);
+    const unsigned top1 = 8u * (unsigned)sizeof(ffwd_real) - 2u;
     uint32_t p;
     for (p = 0; p < npairs; p++) {
-        ffwd_real xv[LANES], kv[LANES], k[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
+        ffwd_real xv[LANES], kv[LANES], nk[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
         ffwd_real lo[LANES], rh[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
         ffwd_real hz[LANES], wv[LANES];
         ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
@@ -76,25 +78,22 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
             kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
         memcpy(b, kv, sizeof b);
         for (l = 0; l < LANES; l++)
-#ifdef FFWD_SINGLE
-            k[l] = (ffwd_real)((int32_t)(b[l] & 0x7fffffu) - (int32_t)0x400000);
-#else
-            k[l] = (ffwd_real)(int32_t)(uint32_t)b[l];
-#endif
+            nk[l] = ROUND_MAGIC - kv[l]; /* -k, exact: kv is ROUND_MAGIC + k */
         for (l = 0; l < LANES; l++) {
-            t1[l] = xv[l] - k[l] * P1;
-            hi[l] = t1[l] - k[l] * P2;
+            /* nk = -k: each product once, no negation */
+            t1[l] = xv[l] + nk[l] * P1;
+            hi[l] = t1[l] + nk[l] * P2;
             bb[l] = hi[l] - t1[l];
-            e1[l] = (t1[l] - (hi[l] - bb[l])) + (-k[l] * P2 - bb[l]);
+            e1[l] = (t1[l] - (hi[l] - bb[l])) + (nk[l] * P2 - bb[l]);
 #ifdef FFWD_SINGLE
             {
-                ffwd_real h2 = hi[l] - k[l] * P3, b2 = h2 - hi[l];
-                ffwd_real e2 = (hi[l] - (h2 - b2)) + (-k[l] * P3 - b2);
-                lo[l] = (e1[l] + e2) - k[l] * P4;
+                ffwd_real h2 = hi[l] + nk[l] * P3, b2 = h2 - hi[l];
+                ffwd_real e2 = (hi[l] - (h2 - b2)) + (nk[l] * P3 - b2);
+                lo[l] = (e1[l] + e2) + nk[l] * P4;
                 hi[l] = h2;
             }
 #else
-            lo[l] = (e1[l] - k[l] * P3) - k[l] * P4;
+            lo[l] = (e1[l] + nk[l] * P3) + nk[l] * P4;
 #endif
             rh[l] = hi[l] + lo[l];
             rl[l] = lo[l] - (rh[l] - hi[l]); /* fast two-sum: |lo| <= |hi| up to rounding */
@@ -107,9 +106,11 @@ void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd
         memcpy(us, sr, sizeof us);
         memcpy(uc, cr, sizeof uc);
         for (l = 0; l < LANES; l++) {
-            sw[l] = (ffwd_bits_)0 - (b[l] & one);
-            os[l] = ((uc[l] & sw[l]) | (us[l] & ~sw[l])) ^ (((b[l] >> 1) & one) * sign);
-            oc[l] = ((us[l] & sw[l]) | (uc[l] & ~sw[l])) ^ ((((b[l] + one) >> 1) & one) * sign);
+            /* k odd: swap sin and cos (both xor their difference); bit 1 of k (of k + 1
+             * for cos) shifted into the sign bit */
+            sw[l] = (us[l] ^ uc[l]) & ((ffwd_bits_)0 - (b[l] & one));
+            os[l] = (us[l] ^ sw[l]) ^ ((b[l] << top1) & sign);
+            oc[l] = (uc[l] ^ sw[l]) ^ (((b[l] + one) << top1) & sign);
         }
         memcpy(s + LANES * p, os, sizeof os);
         memcpy(c + LANES * p, oc, sizeof oc);
