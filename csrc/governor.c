@@ -791,19 +791,18 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
 
 
 /* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
- * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Their boxes join the
- * segments' and the joint jerk between them is bounded by the largest d qdd / ds over
- * the segments they cross times the longest step (the change into the first of them is
- * checked as any cycle's). Returns the number of cycles skipped (0: none), or -1 if the
- * jerk fails; g->cyc_prev becomes the last of them. */
+ * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)), for pass 1 of
+ * decel_cycles: their boxes join the segments' (their joint jerk is covered by the
+ * segments' bound, or pass 2 simulates them one by one). Returns the number of cycles
+ * skipped (0: none); g->cyc_prev becomes the last of them. */
 static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real Vp)
 {
-    const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds, keep2 = FR(1) - FR(2) * g->cfg.margin;
-    const uint32_t n = g->model->dof, nseg = g->count - 1u;
+    const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds;
+    const uint32_t nseg = g->count - 1u;
     ffwd_real mm = minr((k - ramp_need(g, -D, Vp)) / (D * dt), FR(1e9)), x0 = k * k;
-    ffwd_real s_last, k_last, *slope = g->zq;
+    ffwd_real s_last, k_last;
     long m;
-    uint32_t i, i0, i1, j;
+    uint32_t i, i0, i1;
     if (!(mm >= FR(0)))
         return 0;
     m = (long)(uint32_t)mm - 2;              /* floor, less the last two hold cycles */
@@ -817,10 +816,7 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
     i1 = (uint32_t)(s_last / ds);
     if (i1 > nseg - 1u)
         i1 = nseg - 1u;
-    for (j = 0; j < n; j++)
-        slope[j] = FR(0);
     for (i = i0; i <= i1; i++) {
-        const ffwd_gov_slot *sa = slot_at(g, i), *sb = slot_at(g, i + 1u);
         ffwd_real lo_s = maxr(s, (ffwd_real)i * ds), hi_s = minr(s_last, (ffwd_real)(i + 1u) * ds);
         ffwd_real kh = sqrt0(x0 - FR(2) * D * (lo_s - s)), kl = sqrt0(x0 - FR(2) * D * (hi_s - s));
         ffwd_real *b = g->box[i];
@@ -836,16 +832,6 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
             b[2] = minr(b[2], -D);
             b[3] = maxr(b[3], -D);
         }
-        for (j = 0; j < n; j++) {
-            ffwd_real g1 = (sb->dq[j] - sa->dq[j]) / ds, g2 = (sb->ddq[j] - sa->ddq[j]) / ds;
-            ffwd_real dd = maxr(absr(sa->ddq[j]), absr(sb->ddq[j]));
-            slope[j] = maxr(slope[j], absr(g2) * kh * kh + FR(2) * D * dd + D * absr(g1));
-        }
-    }
-    for (j = 0; j < n; j++) {
-        const ffwd_joint *J = &g->model->joint[j];
-        if ((J->has_limits & FFWD_LIM_JERK) && slope[j] * k > keep2 * J->j_max)
-            return -1;                       /* d qdd / ds times ds per cycle (< kappa dt) */
     }
     g->cyc_prev[0] = s_last;
     g->cyc_prev[1] = k_last;
@@ -982,9 +968,10 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
 }
 
 /* Plan D's cycles from (sig, kap > 0, u). Pass 1 records the per-segment boxes and the
- * first and last cycle (returns 2 when a cycle jumps over a whole segment: pass 2 is
- * needed); pass 2 checks the joint jerk exactly wherever the bound does not cover it
- * (box_used 2: covered). 0: the plan fails. */
+ * first and last cycle, the middle of a hold at once (returns 2 when a cycle jumps over
+ * a whole segment: pass 2 is needed); pass 2 simulates every cycle and checks the joint
+ * jerk exactly wherever the bound does not cover it (box_used 2: covered). 0: the plan
+ * fails. */
 static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
                         ffwd_real Vp, int pass)
 {
@@ -995,20 +982,12 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
     int wide = 0, first = 1;
     while (k > FR(0)) {
         ffwd_real un, *b;
-        if (uu == -D && !first) {            /* holding: skip the middle of the hold */
-            ffwd_real pv[3];
-            long mk;
-            memcpy(pv, g->cyc_prev, sizeof pv);
-            mk = hold_skip(g, s, k, D, Vp);
-            if (mk < 0)
-                return 0;
+        if (pass == 1 && uu == -D && !first) {   /* holding: skip the middle of the hold */
+            long mk = hold_skip(g, s, k, D, Vp);
             if (mk > 0) {
                 ffwd_real mr = (ffwd_real)mk;
-                const ffwd_real c[3] = { s, k, -D };
                 i = seg_of(g, s);
                 wide |= i > ip + 1u;
-                if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u) && !cycles_jerk_ok(g, pv, c))
-                    return 0;
                 cycles += (uint32_t)mk;
                 s += mr * k * dt - FR(0.5) * D * dt * dt * mr * mr;
                 k -= mr * D * dt;

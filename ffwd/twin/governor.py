@@ -630,9 +630,10 @@ class GovernorTwin:
 
     def decel_cycles(self, sig, kap, u, D, Vp, box, safe=None):
         """Plan D's cycles from (sig, kappa > 0, u). The first pass (safe None) records
-        the per-segment boxes; the second checks the joint jerk exactly wherever the
-        bound does not cover it (segments not in safe). Returns None if the plan fails,
-        else (first cycle, last cycle, whether a cycle jumps over a whole segment)."""
+        the per-segment boxes, the middle of a hold at once; the second simulates every
+        cycle and checks the joint jerk exactly wherever the bound does not cover it
+        (segments not in safe). Returns None if the plan fails, else (first cycle, last
+        cycle, whether a cycle jumps over a whole segment)."""
         ds, dt = self.ds, self.dt
         send = (len(self.window) - 1) * ds
         s, k, uu = sig, kap, u
@@ -644,15 +645,11 @@ class GovernorTwin:
                     or self.jerk_step_ok(self.cycle_qdd(prev), self.cycle_qdd(c)))
 
         while k > 0.0:
-            if uu == -D and first is not None:       # holding: skip the middle of the hold
+            if safe is None and uu == -D and first is not None:   # holding: skip the middle
                 m, last = self.hold_skip(s, k, D, Vp, box)
-                if m < 0:
-                    return None
                 if m > 0:
                     i = self.seg_of(s)
                     wide = wide or i > ip + 1
-                    if not exact(i, (s, k, -D)):
-                        return None
                     cycles += m
                     s += m * k * dt - 0.5 * D * dt * dt * m * m
                     k -= m * D * dt
@@ -734,13 +731,11 @@ class GovernorTwin:
 
     def hold_skip(self, s, k, D, Vp, box):
         """Plan D holding u = -D from (s, kappa): the cycles up to two before the ramp
-        back, at once (x is affine in s along them: x = kappa^2 - 2 D (s' - s)). Their
-        boxes join the segments' and the joint jerk between them is bounded by the
-        largest d qdd / ds over the segments they cross times the longest step (the
-        change into the first of them is checked as any cycle's). Returns the number of
-        cycles skipped (0: none; -1 if the jerk fails) and the last of them."""
+        back, at once (x is affine in s along them: x = kappa^2 - 2 D (s' - s)), for the
+        first pass of decel_cycles: their boxes join the segments' (their joint jerk is
+        covered by the segments' bound, or the second pass simulates them one by one).
+        Returns the number of cycles skipped (0: none) and the last of them."""
         dt, ds, w = self.dt, self.ds, self.window
-        keep2 = 1.0 - 2.0 * self.margin
         m = math.floor(min((k - self.ramp_need(-D, Vp)) / (D * dt), 1e9)) - 2
         if m < 2:
             return 0, None
@@ -750,9 +745,7 @@ class GovernorTwin:
         k_last = k - (m - 1) * D * dt
         if s_last > nseg * ds:
             return 0, None                     # beyond the window: the cycles say so
-        i0, i1 = int(s / ds), min(int(s_last / ds), nseg - 1)
-        slope = [0.0] * self.n
-        for i in range(i0, i1 + 1):
+        for i in range(int(s / ds), min(int(s_last / ds), nseg - 1) + 1):
             lo_s, hi_s = max(s, i * ds), min(s_last, (i + 1) * ds)
             kh = sqrt0(x0 - 2.0 * D * (lo_s - s))
             kl = sqrt0(x0 - 2.0 * D * (hi_s - s))
@@ -762,14 +755,6 @@ class GovernorTwin:
             else:
                 b[0] = min(b[0], kl); b[1] = max(b[1], kh)
                 b[2] = min(b[2], -D); b[3] = max(b[3], -D)
-            for j in range(self.n):
-                g1 = (w[i + 1].dq[j] - w[i].dq[j]) / ds
-                g2 = (w[i + 1].ddq[j] - w[i].ddq[j]) / ds
-                dd = max(abs(w[i].ddq[j]), abs(w[i + 1].ddq[j]))
-                slope[j] = max(slope[j], abs(g2) * kh * kh + 2.0 * D * dd + D * abs(g1))
-        for j in range(self.n):
-            if self.j_max[j] is not None and slope[j] * k > keep2 * self.j_max[j]:
-                return -1, None                # d qdd / ds times ds per cycle (< kappa dt)
         return m, (s_last, k_last, -D)
 
     def box_fits(self, sl, kl, kh, ul, uh):
