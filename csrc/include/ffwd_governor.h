@@ -28,9 +28,12 @@
  * sample's speed range are kept, so usually far fewer), plus two inverse dynamics calls
  * and one gravity call at the current point (the torque there is exactly tau0 + a u);
  * plus the plan checks of (b): the fastest stop is O(dof * horizon); plan D simulates
- * its cycles to rest (at most FFWD_GOV_PLAN_CYCLES), and up to 5 steps are checked a
- * cycle (the tracker's, then halvings towards the stored plan's); each push costs two
- * inverse-dynamics calls, one gravity call and O(dof^2) for the sample's largest
+ * its cycles to rest (at most FFWD_GOV_PLAN_CYCLES, a few scalar operations each, the
+ * middle of a hold at once) and then tests O(dof * horizon) boxes and jerk bounds (a
+ * second pass checks the joint jerk cycle by cycle only where the segments' bound does
+ * not cover it); up to 6 steps are checked a cycle (the tracker's, the largest u whose
+ * plan D stop length fits, then halvings towards the stored plan's); each push costs
+ * two inverse-dynamics calls, one gravity call and O(dof^2) for the sample's largest
  * admissible speed. No heap.
  * (a) uses the limits reduced by margin; the safe curve of (c) is computed with the
  * limits reduced by 2 * margin, so a state on it can follow it between samples.
@@ -117,8 +120,9 @@ typedef struct ffwd_governor {
     ffwd_real plan_D, plan_Vp;  /* plan D: deceleration and ramp rate */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
     /* scratch of the plan D check: per window segment the box of the plan's states
-     * (kappa low, high, u low, high) and whether a cycle starts there; the command's
-     * qdd before the plan and along it */
+     * (kappa low, high, u low, high) and whether a cycle starts there (box_used 1; 2:
+     * and the jerk bound covers the cycles from there); the command's qdd before the
+     * plan and two cycles' qdd */
     ffwd_real box[FFWD_GOV_MAX_HORIZON][4];
     ffwd_real qdd0[FFWD_MAX_DOF], pq[FFWD_MAX_DOF], pq2[FFWD_MAX_DOF];
     uint8_t box_used[FFWD_GOV_MAX_HORIZON];
