@@ -20,6 +20,7 @@
 #define REST_TOL FR(1e-12)
 #define GOV_BISECT 4u   /* halvings between the stored plan's u and the step's */
 #define GOV_FIT_ITER 20u  /* halvings of stop_fit_u */
+#define GOV_EXACT_CYCLES 2048u  /* plan D cycles checked one by one at most (pass 2) */
 
 #if defined(__GNUC__) || defined(__clang__)
 #ifdef FFWD_SINGLE
@@ -790,33 +791,42 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
 }
 
 
-/* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, at
- * once (x is affine in s along them: x = kap^2 - 2 D (s' - s)), for pass 1 of
- * decel_cycles: their boxes join the segments' (their joint jerk is covered by the
- * segments' bound, or pass 2 simulates them one by one). Returns the number of cycles
- * skipped (0: none); g->cyc_prev becomes the last of them. */
-static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real Vp)
+/* The window segment of progress s (the last one past the end). */
+static uint32_t seg_of(const ffwd_governor *g, ffwd_real s)
 {
-    const ffwd_real dt = g->cfg.dt, ds = g->cfg.ds;
-    const uint32_t nseg = g->count - 1u;
-    ffwd_real mm = minr((k - ramp_need(g, -D, Vp)) / (D * dt), FR(1e9)), x0 = k * k;
-    ffwd_real s_last, k_last;
+    uint32_t i = (uint32_t)(s / g->cfg.ds);
+    return i > g->count - 2u ? g->count - 2u : i;
+}
+
+/* Plan D holding u = -D from (s, kap): the cycles up to two before the ramp back, as
+ * one block (x is affine in s along them: x = kap^2 - 2 D (s' - s)). Returns their
+ * number (0: none worth a block) and the last of them in *last (s, kappa, u). */
+static long hold_block(const ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real Vp,
+                       ffwd_real *last)
+{
+    const ffwd_real dt = g->cfg.dt;
+    ffwd_real mm = minr((k - ramp_need(g, -D, Vp)) / (D * dt), FR(1e9));
     long m;
-    uint32_t i, i0, i1;
     if (!(mm >= FR(0)))
         return 0;
     m = (long)(uint32_t)mm - 2;              /* floor, less the last two hold cycles */
     if (m < 2)
         return 0;
-    s_last = s + (ffwd_real)(m - 1) * k * dt - FR(0.5) * D * dt * dt * (ffwd_real)(m - 1) * (ffwd_real)(m - 1);
-    k_last = k - (ffwd_real)(m - 1) * D * dt;
-    if (s_last > (ffwd_real)nseg * ds)
+    last[0] = s + (ffwd_real)(m - 1) * k * dt - FR(0.5) * D * dt * dt * (ffwd_real)(m - 1) * (ffwd_real)(m - 1);
+    last[1] = k - (ffwd_real)(m - 1) * D * dt;
+    last[2] = -D;
+    if (last[0] > (ffwd_real)(g->count - 1u) * g->cfg.ds)
         return 0;                            /* beyond the window: the cycles say so */
-    i0 = (uint32_t)(s / ds);
-    i1 = (uint32_t)(s_last / ds);
-    if (i1 > nseg - 1u)
-        i1 = nseg - 1u;
-    for (i = i0; i <= i1; i++) {
+    return m;
+}
+
+/* The boxes of a hold block from (s, kap) to its last cycle at s_last join the
+ * segments' (pass 1 of decel_cycles). */
+static void hold_boxes(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real s_last)
+{
+    const ffwd_real ds = g->cfg.ds, x0 = k * k;
+    uint32_t i, i1 = seg_of(g, s_last);
+    for (i = seg_of(g, s); i <= i1; i++) {
         ffwd_real lo_s = maxr(s, (ffwd_real)i * ds), hi_s = minr(s_last, (ffwd_real)(i + 1u) * ds);
         ffwd_real kh = sqrt0(x0 - FR(2) * D * (lo_s - s)), kl = sqrt0(x0 - FR(2) * D * (hi_s - s));
         ffwd_real *b = g->box[i];
@@ -833,18 +843,17 @@ static long hold_skip(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, f
             b[3] = maxr(b[3], -D);
         }
     }
-    g->cyc_prev[0] = s_last;
-    g->cyc_prev[1] = k_last;
-    g->cyc_prev[2] = -D;
-    return m;
 }
 
 /* Path length plan D covers to rest in continuous time (u ramps at -V to -D or less,
- * holds, ramps back at +V): a quick test before its cycles are simulated. */
-static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V)
+ * holds, ramps back at +V), and its duration into *dur when dur is not NULL: quick
+ * tests before its cycles are simulated. */
+static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V, ffwd_real *dur)
 {
     ffwd_real F, um, T[3], v[3], s = FR(0);
     uint32_t p;
+    if (dur != NULL)
+        *dur = FR(0);
     D = maxr(D, -u);
     F = k + u * absr(u) / (FR(2) * V);      /* kappa once u is ramped to 0 (u < 0: less) */
     if (F <= FR(0))
@@ -861,6 +870,8 @@ static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V)
         k += u * T[p] + FR(0.5) * v[p] * T[p] * T[p];
         u += v[p] * T[p];
     }
+    if (dur != NULL)
+        *dur = T[0] + T[1] + T[2];
     return s;
 }
 
@@ -875,7 +886,7 @@ static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, 
     for (it = 0; it <= GOV_FIT_ITER; it++) {
         ffwd_real uc = it == 0u ? ub : FR(0.5) * (ua + ub);
         ffwd_real kc = g->kappa + uc * dt, sc = g->sigma + g->kappa * dt + FR(0.5) * dt * dt * uc;
-        int fit = (uc < FR(0) && kc <= FR(0)) || sc + stop_length(kc, uc, D, Vp) <= send;
+        int fit = (uc < FR(0) && kc <= FR(0)) || sc + stop_length(kc, uc, D, Vp, NULL) <= send;
         if (it == 0u && fit)
             return ub;
         if (fit)
@@ -884,13 +895,6 @@ static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, 
             ub = uc;
     }
     return ua;
-}
-
-/* The window segment of progress s (the last one past the end). */
-static uint32_t seg_of(const ffwd_governor *g, ffwd_real s)
-{
-    uint32_t i = (uint32_t)(s / g->cfg.ds);
-    return i > g->count - 2u ? g->count - 2u : i;
 }
 
 /* The command's qdd = q'' kappa^2 + q' u of every jerk-limited joint at a plan D cycle
@@ -967,31 +971,43 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
     return 1;
 }
 
-/* Plan D's cycles from (sig, kap > 0, u). Pass 1 records the per-segment boxes and the
- * first and last cycle, the middle of a hold at once (returns 2 when a cycle jumps over
- * a whole segment: pass 2 is needed); pass 2 simulates every cycle and checks the joint
- * jerk exactly wherever the bound does not cover it (box_used 2: covered). 0: the plan
- * fails. */
+/* Plan D's cycles from (sig, kap > 0, u), the middle of a hold as one block. Pass 1
+ * records the per-segment boxes and the first and last cycle (returns 2 when a cycle
+ * steps over a whole segment: pass 2 is needed); pass 2 checks the joint jerk exactly
+ * wherever the segments' bound does not cover it (box_used 2: covered), at most
+ * GOV_EXACT_CYCLES cycles (more: the plan is not vouched for). 0: the plan fails. */
 static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
                         ffwd_real Vp, int pass)
 {
     const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
     const ffwd_real send = (ffwd_real)(g->count - 1u) * ds;
     ffwd_real s = sig, k = kap, uu = u;
-    uint32_t cycles = 0, i, ip = 0;
+    uint32_t cycles = 0, exact = 0, i, ip = 0;
     int wide = 0, first = 1;
     while (k > FR(0)) {
         ffwd_real un, *b;
-        if (pass == 1 && uu == -D && !first) {   /* holding: skip the middle of the hold */
-            long mk = hold_skip(g, s, k, D, Vp);
-            if (mk > 0) {
+        if (uu == -D && !first) {            /* holding: the middle of the hold as one block */
+            ffwd_real last[3];
+            long mk = hold_block(g, s, k, D, Vp, last);
+            int skip = mk > 0;
+            i = seg_of(g, s);
+            if (skip && pass == 2) {
+                /* only where the bound covers every change in it and into it */
+                uint32_t a, i1 = seg_of(g, last[0]);
+                skip = g->box_used[ip] == 2u && i <= ip + 1u && k * dt < ds;
+                for (a = i; skip && a <= i1; a++)
+                    skip = g->box_used[a] == 2u;
+            }
+            if (skip) {
                 ffwd_real mr = (ffwd_real)mk;
-                i = seg_of(g, s);
-                wide |= i > ip + 1u;
+                wide |= i > ip + 1u || k * dt >= ds;   /* a step over a whole segment */
+                if (pass == 1)
+                    hold_boxes(g, s, k, D, last[0]);
                 cycles += (uint32_t)mk;
                 s += mr * k * dt - FR(0.5) * D * dt * dt * mr * mr;
                 k -= mr * D * dt;
-                ip = seg_of(g, g->cyc_prev[0]);
+                memcpy(g->cyc_prev, last, sizeof last);
+                ip = seg_of(g, last[0]);
                 continue;
             }
         }
@@ -1007,8 +1023,10 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         } else {
             const ffwd_real c[3] = { s, k, un };
             wide |= i > ip + 1u;
-            if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u) && !cycles_jerk_ok(g, g->cyc_prev, c))
-                return 0;
+            if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u)) {
+                if (++exact > GOV_EXACT_CYCLES || !cycles_jerk_ok(g, g->cyc_prev, c))
+                    return 0;               /* (past the budget: not vouched for) */
+            }
         }
         g->cyc_prev[0] = s;
         g->cyc_prev[1] = k;
@@ -1058,10 +1076,13 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
 {
     const uint32_t nseg = g->count - 1u;
     const ffwd_real send = (ffwd_real)nseg * g->cfg.ds;
+    ffwd_real dur;
     uint32_t i;
     int r, all = 1;
-    if (sig + stop_length(kap, u, D, Vp) > send)
+    if (sig + stop_length(kap, u, D, Vp, &dur) > send)
         return 0;                           /* it cannot rest inside the window */
+    if (!(dur <= g->cfg.dt * (ffwd_real)FFWD_GOV_PLAN_CYCLES))
+        return 0;                           /* nor within the cycles it may simulate */
     ffwd_zero_(g->pq2, FFWD_MAX_DOF);
     if (kap <= FR(0))                       /* at rest already: the command's qdd is 0 */
         return !g->any_jerk || jerk_step_ok(g, g->qdd0, g->pq2);

@@ -49,7 +49,7 @@ define fuzz_loaders
 endef
 
 define fuzz_api_run
-	@(cd $(FUZZ_DIR) && $(FUZZ_ENV) ./fuzz_api $(1) -print_final_stats=1 corpus/api > api.log 2>&1); rc=$$?; \
+	@(cd $(FUZZ_DIR) && $(FUZZ_ENV) ./fuzz_api $(1) -timeout=25 -print_final_stats=1 corpus/api > api.log 2>&1); rc=$$?; \
 	  echo "C API: $$(grep -hE '^stat::number_of_executed_units' $(FUZZ_DIR)/api.log)"; \
 	  if [ $$rc -ne 0 ]; then grep -vE '^#[0-9]+ ' $(FUZZ_DIR)/api.log | tail -40; exit 1; fi
 endef

@@ -29,6 +29,7 @@ CAP = 1e15
 ALPHA_TOL = 1e-12
 NBISECT = 4            # halvings between the plan's u and the step's
 FIT_ITER = 20          # halvings of stop_fit_u
+EXACT_CYCLES = 2048    # plan D cycles checked one by one at most (pass 2)
 MAX_PLAN_CYCLES = 100000   # cycles of plan D simulated at most (longer: not vouched for)
 REST_TOL = 1e-12
 
@@ -500,19 +501,20 @@ class GovernorTwin:
     @staticmethod
     def stop_length(k, u, D, V):
         """Path length plan D covers to rest in continuous time (u ramps at -V to -D or
-        less, holds, ramps back at +V): a quick test before its cycles are simulated."""
+        less, holds, ramps back at +V) and its duration: quick tests before its cycles
+        are simulated."""
         D = max(D, -u)
         F = k + u * abs(u) / (2.0 * V)        # kappa once u is ramped to 0 (u < 0: less)
         if F <= 0.0:
-            return 0.0
+            return 0.0, 0.0
         um = -D if F >= D * D / V else -sqrt0(V * F)
-        T2 = (F - um * um / V) / -um           # hold at um
+        phases = (((u - um) / V, -V), ((F - um * um / V) / -um, 0.0), (-um / V, V))  # hold at um
         s = 0.0
-        for T, v in (((u - um) / V, -V), (T2, 0.0), (-um / V, V)):
+        for T, v in phases:
             s += k * T + 0.5 * u * T * T + v * T * T * T / 6.0
             k += u * T + 0.5 * v * T * T
             u += v * T
-        return s
+        return s, phases[0][0] + phases[1][0] + phases[2][0]
 
     def path_d123(self, i, H, j):
         """q', q'' and q''' of joint j in window segment i where the Hermite basis is H
@@ -549,7 +551,7 @@ class GovernorTwin:
         def fit(uc):
             kc = self.kappa + uc * dt
             sc = self.sigma + self.kappa * dt + 0.5 * dt * dt * uc
-            return (uc < 0.0 and kc <= 0.0) or sc + self.stop_length(kc, uc, D, Vp) <= send
+            return (uc < 0.0 and kc <= 0.0) or sc + self.stop_length(kc, uc, D, Vp)[0] <= send
 
         if fit(ub):
             return ub
@@ -629,27 +631,30 @@ class GovernorTwin:
         return True
 
     def decel_cycles(self, sig, kap, u, D, Vp, box, safe=None):
-        """Plan D's cycles from (sig, kappa > 0, u). The first pass (safe None) records
-        the per-segment boxes, the middle of a hold at once; the second simulates every
-        cycle and checks the joint jerk exactly wherever the bound does not cover it
-        (segments not in safe). Returns None if the plan fails, else (first cycle, last
-        cycle, whether a cycle jumps over a whole segment)."""
+        """Plan D's cycles from (sig, kappa > 0, u), the middle of a hold as one block.
+        The first pass (safe None) records the per-segment boxes; the second checks the
+        joint jerk exactly wherever the segments' bound does not cover it (segments not
+        in safe), at most EXACT_CYCLES cycles (more: the plan is not vouched for).
+        Returns None if the plan fails, else (first cycle, last cycle, whether a cycle
+        steps over a whole segment)."""
         ds, dt = self.ds, self.dt
         send = (len(self.window) - 1) * ds
         s, k, uu = sig, kap, u
-        cycles, ip, wide = 0, 0, False
+        cycles, exact, ip, wide = 0, 0, 0, False
         first = prev = None
-
-        def exact(i, c):        # pass 2: the change from the cycle before to c, where needed
-            return (safe is None or (ip in safe and i <= ip + 1)
-                    or self.jerk_step_ok(self.cycle_qdd(prev), self.cycle_qdd(c)))
-
         while k > 0.0:
-            if safe is None and uu == -D and first is not None:   # holding: skip the middle
-                m, last = self.hold_skip(s, k, D, Vp, box)
-                if m > 0:
-                    i = self.seg_of(s)
-                    wide = wide or i > ip + 1
+            if uu == -D and first is not None:   # holding: the middle of the hold as one block
+                m, last = self.hold_block(s, k, D, Vp)
+                skip = m > 0
+                i = self.seg_of(s)
+                if skip and safe is not None:
+                    # only where the bound covers every change in it and into it
+                    skip = (ip in safe and i <= ip + 1 and k * dt < ds
+                            and all(a in safe for a in range(i, self.seg_of(last[0]) + 1)))
+                if skip:
+                    wide = wide or i > ip + 1 or k * dt >= ds   # a step over a whole segment
+                    if safe is None:
+                        self.hold_boxes(s, k, D, last[0], box)
                     cycles += m
                     s += m * k * dt - 0.5 * D * dt * dt * m * m
                     k -= m * D * dt
@@ -665,8 +670,12 @@ class GovernorTwin:
                 first = (s, k, un)
             else:
                 wide = wide or i > ip + 1
-                if not exact(i, (s, k, un)):
-                    return None
+                if safe is not None and not (ip in safe and i <= ip + 1):
+                    # pass 2: the change from the cycle before, exactly (within a budget)
+                    exact += 1
+                    if exact > EXACT_CYCLES or not self.jerk_step_ok(self.cycle_qdd(prev),
+                                                                     self.cycle_qdd((s, k, un))):
+                        return None
             prev = (s, k, un)
             ip = i
             if safe is None:
@@ -698,8 +707,11 @@ class GovernorTwin:
         bound where it covers it, else exactly (q' and q'' of the path's interpolation)."""
         w = self.window
         nseg = len(w) - 1
-        if sig + self.stop_length(kap, u, D, Vp) > nseg * self.ds:
+        length, duration = self.stop_length(kap, u, D, Vp)
+        if sig + length > nseg * self.ds:
             return False                       # it cannot rest inside the window
+        if not duration <= self.dt * MAX_PLAN_CYCLES:
+            return False                       # nor within the cycles it may simulate
         zero = [0.0] * self.n
         if kap <= 0.0:                         # at rest already: the command's qdd is 0
             return not self.any_jerk or self.jerk_step_ok(qdd0, zero)
@@ -729,23 +741,25 @@ class GovernorTwin:
             return True
         return self.decel_cycles(sig, kap, u, D, Vp, box, safe) is not None
 
-    def hold_skip(self, s, k, D, Vp, box):
+    def hold_block(self, s, k, D, Vp):
         """Plan D holding u = -D from (s, kappa): the cycles up to two before the ramp
-        back, at once (x is affine in s along them: x = kappa^2 - 2 D (s' - s)), for the
-        first pass of decel_cycles: their boxes join the segments' (their joint jerk is
-        covered by the segments' bound, or the second pass simulates them one by one).
-        Returns the number of cycles skipped (0: none) and the last of them."""
-        dt, ds, w = self.dt, self.ds, self.window
+        back, as one block (x is affine in s along them: x = kappa^2 - 2 D (s' - s)).
+        Returns their number (0: none worth a block) and the last of them."""
+        dt = self.dt
         m = math.floor(min((k - self.ramp_need(-D, Vp)) / (D * dt), 1e9)) - 2
         if m < 2:
             return 0, None
-        nseg = len(w) - 1
-        x0 = k * k
-        s_last = s + (m - 1) * k * dt - 0.5 * D * dt * dt * (m - 1) * (m - 1)
-        k_last = k - (m - 1) * D * dt
-        if s_last > nseg * ds:
+        last = (s + (m - 1) * k * dt - 0.5 * D * dt * dt * (m - 1) * (m - 1),
+                k - (m - 1) * D * dt, -D)
+        if last[0] > (len(self.window) - 1) * self.ds:
             return 0, None                     # beyond the window: the cycles say so
-        for i in range(int(s / ds), min(int(s_last / ds), nseg - 1) + 1):
+        return m, last
+
+    def hold_boxes(self, s, k, D, s_last, box):
+        """The boxes of a hold block from (s, kappa) to its last cycle at s_last join the
+        segments' (first pass of decel_cycles)."""
+        ds, x0 = self.ds, k * k
+        for i in range(self.seg_of(s), self.seg_of(s_last) + 1):
             lo_s, hi_s = max(s, i * ds), min(s_last, (i + 1) * ds)
             kh = sqrt0(x0 - 2.0 * D * (lo_s - s))
             kl = sqrt0(x0 - 2.0 * D * (hi_s - s))
@@ -755,7 +769,6 @@ class GovernorTwin:
             else:
                 b[0] = min(b[0], kl); b[1] = max(b[1], kh)
                 b[2] = min(b[2], -D); b[3] = max(b[3], -D)
-        return m, (s_last, k_last, -D)
 
     def box_fits(self, sl, kl, kh, ul, uh):
         """Every limit of sample sl (twice the margin) over the box of states. Each row
