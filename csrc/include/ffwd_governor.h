@@ -29,9 +29,10 @@
  * and one gravity call at the current point (the torque there is exactly tau0 + a u);
  * plus the plan checks of (b): the fastest stop is O(dof * horizon); plan D simulates
  * its cycles to rest (at most FFWD_GOV_PLAN_CYCLES, a few scalar operations each, the
- * middle of a hold at once) and then tests O(dof * horizon) boxes and jerk bounds (a
- * second pass checks the joint jerk cycle by cycle only where the segments' bound does
- * not cover it); up to 6 steps are checked a cycle (the tracker's, the largest u whose
+ * middle of a hold at once; a plan whose continuous stop is longer is rejected at once)
+ * and then tests O(dof * horizon) boxes and jerk bounds (a second pass checks the joint
+ * jerk cycle by cycle, at most 2048 cycles, only where the segments' bound does not
+ * cover it); up to 6 steps are checked a cycle (the tracker's, the largest u whose
  * plan D stop length fits, then halvings towards the stored plan's); each push costs
  * two inverse-dynamics calls, one gravity call and O(dof^2) for the sample's largest
  * admissible speed. No heap.
