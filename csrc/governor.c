@@ -1387,8 +1387,15 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         flags |= FFWD_GOV_CAPPED;
     /* (b), (d): jerk-bounded approach of the target */
     e = kt - kap;
-    /* largest |u| that still lets u ramp back to 0 at rate V without passing the target */
-    ud = minr(U, FR(2) * absr(e) / (sqrt0(dt * dt + FR(2) * absr(e) / V) + dt));
+    Vp = V;
+    Dr = U;
+    for (k = 0; k < g->count; k++) {
+        Vp = minr(Vp, slot_at(g, k)->vp);   /* ramp rate of plan D */
+        Dr = minr(Dr, slot_at(g, k)->dr);   /* its largest deceleration */
+    }
+    /* largest |u| that still lets u ramp back to 0 at rate Vp (what the joint jerk limits
+     * allow in the window, at most V) without passing the target */
+    ud = minr(U, FR(2) * absr(e) / (sqrt0(dt * dt + FR(2) * absr(e) / Vp) + dt));
     ud = e >= FR(0) ? ud : -ud;
     vlo = -V;
     vhi = V;
@@ -1425,12 +1432,6 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     /* (b) with (c): the step is kept only if a braking plan from where it leads meets
      * every limit with the rate of rate bounded; else the largest u towards it that has
      * one (halvings), else the stored plan's own u */
-    Vp = V;
-    Dr = U;
-    for (k = 0; k < g->count; k++) {
-        Vp = minr(Vp, slot_at(g, k)->vp);   /* ramp rate of plan D */
-        Dr = minr(Dr, slot_at(g, k)->dr);   /* its largest deceleration */
-    }
     got = 0;
     if (step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad) && !(flags & FFWD_GOV_CONFLICT)) {
         kind = vouch(g, unew, Vp, Dr, 1, &Dk);

@@ -955,8 +955,11 @@ class GovernorTwin:
             flags |= CAPPED
         # (b), (d): jerk-bounded approach of the target
         e = kt - kap
-        # largest |u| that still lets u ramp back to 0 at rate V without passing the target
-        ud = min(U, 2.0 * abs(e) / (sqrt0(dt * dt + 2.0 * abs(e) / V) + dt))
+        Vp = min([self.V] + [sl.vp for sl in self.window])     # ramp rate of plan D
+        Dr = min([self.U] + [sl.dr for sl in self.window])     # its largest deceleration
+        # largest |u| that still lets u ramp back to 0 at rate Vp (what the joint jerk
+        # limits allow in the window, at most V) without passing the target
+        ud = min(U, 2.0 * abs(e) / (sqrt0(dt * dt + 2.0 * abs(e) / Vp) + dt))
         ud = ud if e >= 0.0 else -ud
         vlo, vhi = -V, V
         jerk_bad = False
@@ -992,8 +995,6 @@ class GovernorTwin:
             return (lo - tol * (1.0 + abs(lo)) <= uc <= hi + tol * (1.0 + abs(hi))
                     and vlo - tol * (1.0 + abs(vlo)) <= vc <= vhi + tol * (1.0 + abs(vhi))
                     and not jerk_bad)
-        Vp = min([self.V] + [sl.vp for sl in self.window])     # ramp rate of plan D
-        Dr = min([self.U] + [sl.dr for sl in self.window])     # its largest deceleration
         got = self.keep_plan(self.vouch(unew, Vp, Dr)) if fits(unew) and not (flags & CONFLICT) else None
         if got is None:
             ufb = self.plan_step(x)
