@@ -820,6 +820,25 @@ static long hold_block(const ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_re
     return m;
 }
 
+/* Segment i's box of plan D states grows to hold kappa in [kl, kh] and u in [ul, uh]. */
+static void box_join(ffwd_governor *g, uint32_t i, ffwd_real kl, ffwd_real kh, ffwd_real ul,
+                     ffwd_real uh)
+{
+    ffwd_real *b = g->box[i];
+    if (!g->box_used[i]) {
+        g->box_used[i] = 1;
+        b[0] = kl;
+        b[1] = kh;
+        b[2] = ul;
+        b[3] = uh;
+    } else {
+        b[0] = minr(b[0], kl);
+        b[1] = maxr(b[1], kh);
+        b[2] = minr(b[2], ul);
+        b[3] = maxr(b[3], uh);
+    }
+}
+
 /* The boxes of a hold block from (s, kap) to its last cycle at s_last join the
  * segments' (pass 1 of decel_cycles). */
 static void hold_boxes(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, ffwd_real s_last)
@@ -829,19 +848,7 @@ static void hold_boxes(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, 
     for (i = seg_of(g, s); i <= i1; i++) {
         ffwd_real lo_s = maxr(s, (ffwd_real)i * ds), hi_s = minr(s_last, (ffwd_real)(i + 1u) * ds);
         ffwd_real kh = sqrt0(x0 - FR(2) * D * (lo_s - s)), kl = sqrt0(x0 - FR(2) * D * (hi_s - s));
-        ffwd_real *b = g->box[i];
-        if (!g->box_used[i]) {
-            g->box_used[i] = 1;
-            b[0] = kl;
-            b[1] = kh;
-            b[2] = -D;
-            b[3] = -D;
-        } else {
-            b[0] = minr(b[0], kl);
-            b[1] = maxr(b[1], kh);
-            b[2] = minr(b[2], -D);
-            b[3] = maxr(b[3], -D);
-        }
+        box_join(g, i, kl, kh, -D, -D);
     }
 }
 
@@ -985,7 +992,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
     uint32_t cycles = 0, exact = 0, i, ip = 0;
     int wide = 0, first = 1;
     while (k > FR(0)) {
-        ffwd_real un, *b;
+        ffwd_real un;
         if (uu == -D && !first) {            /* holding: the middle of the hold as one block */
             ffwd_real last[3];
             long mk = hold_block(g, s, k, D, Vp, last);
@@ -1033,21 +1040,8 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         g->cyc_prev[2] = un;
         ip = i;
         first = 0;
-        if (pass == 1) {
-            b = g->box[i];
-            /* the box of kappa and u (this cycle's and the one before) */
-            if (!g->box_used[i]) {
-                g->box_used[i] = 1;
-                b[0] = b[1] = k;
-                b[2] = minr(uu, un);
-                b[3] = maxr(uu, un);
-            } else {
-                b[0] = minr(b[0], k);
-                b[1] = maxr(b[1], k);
-                b[2] = minr(b[2], minr(uu, un));
-                b[3] = maxr(b[3], maxr(uu, un));
-            }
-        }
+        if (pass == 1)   /* the box of kappa and u (this cycle's and the one before) */
+            box_join(g, i, k, k, minr(uu, un), maxr(uu, un));
         if (un < FR(0) && k + un * dt <= FR(0)) {
             if (-un > Vp * dt * (FR(1) + FR(1e-9)))   /* u drops to 0 at rest: one cycle's change */
                 return 0;

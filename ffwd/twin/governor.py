@@ -112,6 +112,16 @@ def hermite_a345(p0, v0, w0, w1, v1, p1):
             6.0 * dp - 3.0 * v0 - 3.0 * v1 - 0.5 * w0 + 0.5 * w1)
 
 
+def box_join(box, i, kl, kh, ul, uh):
+    """Segment i's box of plan D states grows to hold kappa in [kl, kh] and u in [ul, uh]."""
+    b = box.get(i)
+    if b is None:
+        box[i] = [kl, kh, ul, uh]
+    else:
+        b[0] = min(b[0], kl); b[1] = max(b[1], kh)
+        b[2] = min(b[2], ul); b[3] = max(b[3], uh)
+
+
 class Slot:
     """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
     __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe",
@@ -678,14 +688,8 @@ class GovernorTwin:
                         return None
             prev = (s, k, un)
             ip = i
-            if safe is None:
-                # the box of kappa and u (this cycle's and the one before)
-                b = box.get(i)
-                if b is None:
-                    box[i] = [k, k, min(uu, un), max(uu, un)]
-                else:
-                    b[0] = min(b[0], k); b[1] = max(b[1], k)
-                    b[2] = min(b[2], min(uu, un)); b[3] = max(b[3], max(uu, un))
+            if safe is None:     # the box of kappa and u (this cycle's and the one before)
+                box_join(box, i, k, k, min(uu, un), max(uu, un))
             if un < 0.0 and k + un * dt <= 0.0:
                 if -un > Vp * dt * (1.0 + 1e-9):     # u drops to 0 at rest: one cycle's change
                     return None
@@ -763,12 +767,7 @@ class GovernorTwin:
             lo_s, hi_s = max(s, i * ds), min(s_last, (i + 1) * ds)
             kh = sqrt0(x0 - 2.0 * D * (lo_s - s))
             kl = sqrt0(x0 - 2.0 * D * (hi_s - s))
-            b = box.get(i)
-            if b is None:
-                box[i] = [kl, kh, -D, -D]
-            else:
-                b[0] = min(b[0], kl); b[1] = max(b[1], kh)
-                b[2] = min(b[2], -D); b[3] = max(b[3], -D)
+            box_join(box, i, kl, kh, -D, -D)
 
     def box_fits(self, sl, kl, kh, ul, uh):
         """Every limit of sample sl (twice the margin) over the box of states. Each row
