@@ -402,6 +402,24 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
         if (d > FR(0))
             sl->dr = minr(sl->dr, keep * J->a_max / d);
     }
+    sl->k_vel = BIG;
+    for (j = 0; j < n; j++) {
+        const ffwd_joint *J = &m->joint[j];
+        const ffwd_real fc = J->coulomb * sgnr(sl->dq[j]), tm = keep * J->tau_max, bb = sl->b[j];
+        const ffwd_real gv = J->viscous * sl->dq[j], d = absr(sl->dq[j]);
+        sl->thi[j] = tm - sl->c[j] - maxr(fc, FR(0));
+        sl->tlo[j] = -tm - sl->c[j] - minr(fc, FR(0));
+        sl->gv[j] = gv;
+        sl->kv[j] = FR(-1);
+        sl->fv[j] = FR(0);
+        if (bb < FR(0)) {
+            const ffwd_real kv = -gv / (FR(2) * bb);
+            sl->kv[j] = kv;
+            sl->fv[j] = bb * (kv * kv) + gv * kv;
+        }
+        if (d > FR(0))
+            sl->k_vel = minr(sl->k_vel, keep * J->v_max / d);
+    }
     ffwd_zero_(sl->jb[0], FFWD_MAX_DOF);
     ffwd_zero_(sl->jb[1], FFWD_MAX_DOF);
     ffwd_zero_(sl->jb[2], FFWD_MAX_DOF);
@@ -585,9 +603,12 @@ static void hermite_a345(const ffwd_real *P, ffwd_real *a)
 static void seg_bounds(const ffwd_governor *g, ffwd_gov_slot *s0, const ffwd_gov_slot *s1)
 {
     const ffwd_real ds = g->cfg.ds, i1 = FR(1) / ds, i2 = i1 * i1, i3 = i2 * i1;
-    uint32_t j;
+    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
+    uint32_t j, t;
+    for (t = 0; t < 3u; t++)
+        s0->jr[t] = FR(0);
     for (j = 0; j < g->model->dof; j++) {
-        ffwd_real P[6], a[3];
+        ffwd_real P[6], a[3], jm;
         if (!(g->model->joint[j].has_limits & FFWD_LIM_JERK))
             continue;
         hermite_points(s0, s1, j, ds, P);
@@ -596,6 +617,9 @@ static void seg_bounds(const ffwd_governor *g, ffwd_gov_slot *s0, const ffwd_gov
                         + absr(FR(5) * a[2])) * i1;
         s0->jb[1][j] = (absr(P[2]) + absr(FR(6) * a[0]) + absr(FR(12) * a[1]) + absr(FR(20) * a[2])) * i2;
         s0->jb[2][j] = (absr(FR(6) * a[0]) + absr(FR(24) * a[1]) + absr(FR(60) * a[2])) * i3;
+        jm = keep2 * g->model->joint[j].j_max;
+        for (t = 0; t < 3u; t++)
+            s0->jr[t] = maxr(s0->jr[t], s0->jb[t][j] / jm);
     }
 }
 
@@ -756,34 +780,18 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
     const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
     const ffwd_real kl = b[0], kh = b[1], ul = b[2], uh = b[3], xl = kl * kl, xh = kh * kh;
     uint32_t j;
-    if (xh > sl->x_max)
+    if (xh > sl->x_max || kh > sl->k_vel)
         return 0;
     for (j = 0; j < g->model->dof; j++) {
-        const ffwd_joint *J = &g->model->joint[j];
-        const ffwd_real dq = sl->dq[j], ddq = sl->ddq[j], a = sl->a[j], bb = sl->b[j];
-        const ffwd_real fc = J->coulomb * sgnr(dq);
-        const ffwd_real tm = keep2 * J->tau_max, am = keep2 * J->a_max, gv = J->viscous * dq;
-        ffwd_real f0, f1, fhi, flo, u0, u1, e0, e1, v0, v1;
-        if (absr(dq) * kh > keep2 * J->v_max)
+        const ffwd_real ddq = sl->ddq[j], dq = sl->dq[j], a = sl->a[j], bb = sl->b[j], gv = sl->gv[j];
+        const ffwd_real am = keep2 * g->model->joint[j].a_max, kv = sl->kv[j];
+        const ffwd_real f0 = bb * xl + gv * kl, f1 = bb * xh + gv * kh, u0 = a * ul, u1 = a * uh;
+        const ffwd_real e0 = ddq * xl, e1 = ddq * xh, v0 = dq * ul, v1 = dq * uh;
+        ffwd_real fhi = maxr(f0, f1);
+        if (kl < kv && kv < kh)
+            fhi = maxr(fhi, sl->fv[j]);     /* interior maximum of b x + gv kappa */
+        if (maxr(u0, u1) + fhi > sl->thi[j] || minr(u0, u1) + minr(f0, f1) < sl->tlo[j])
             return 0;
-        f0 = bb * xl + gv * kl;
-        f1 = bb * xh + gv * kh;
-        fhi = maxr(f0, f1);
-        flo = minr(f0, f1);
-        if (bb < FR(0) && kl < -gv / (FR(2) * bb) && -gv / (FR(2) * bb) < kh) {
-            const ffwd_real kv = -gv / (FR(2) * bb);   /* interior maximum of b x + gv kappa */
-            fhi = maxr(fhi, bb * (kv * kv) + gv * kv);
-        }
-        u0 = a * ul;
-        u1 = a * uh;
-        if (maxr(u0, u1) + fhi + sl->c[j] + maxr(fc, FR(0)) > tm)
-            return 0;
-        if (minr(u0, u1) + flo + sl->c[j] + minr(fc, FR(0)) < -tm)
-            return 0;
-        e0 = ddq * xl;
-        e1 = ddq * xh;
-        v0 = dq * ul;
-        v1 = dq * uh;
         if (maxr(e0, e1) + maxr(v0, v1) > am || minr(e0, e1) + minr(v0, v1) < -am)
             return 0;
     }
@@ -957,11 +965,20 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
     const ffwd_real *b = g->box[a];
     ffwd_real kk = b[1], uu = maxr(absr(b[2]), absr(b[3]));
     uint32_t j;
+    ffwd_real r1 = sa->jr[0], r2 = sa->jr[1], r3 = sa->jr[2];
     if (a + 1u < nseg && g->box_used[a + 1u]) {
         const ffwd_real *c = g->box[a + 1u];
         kk = maxr(kk, c[1]);
         uu = maxr(uu, maxr(absr(c[2]), absr(c[3])));
     }
+    if (a + 1u < nseg) {
+        r1 = maxr(r1, sb->jr[0]);
+        r2 = maxr(r2, sb->jr[1]);
+        r3 = maxr(r3, sb->jr[2]);
+    }
+    /* the largest ratios of all joints at once: where they fit, every joint does */
+    if (r3 * kk * kk * kk + FR(3) * r2 * kk * uu + r1 * Vp * (FR(1) + FR(1e-9)) <= FR(1))
+        return 1;
     for (j = 0; j < g->model->dof; j++) {
         const ffwd_joint *J = &g->model->joint[j];
         if (J->has_limits & FFWD_LIM_JERK) {

@@ -97,6 +97,13 @@ typedef struct ffwd_gov_slot {     /* one window sample (internal) */
     ffwd_real vp;                  /* ramp rate the jerk limits allow plan D here (half) */
     ffwd_real dr;                  /* largest constant deceleration the limits allow at rest */
     ffwd_real jb[3][FFWD_MAX_DOF]; /* bounds of |q'|, |q''|, |q'''| on the segment from here */
+    ffwd_real jr[3];               /* their largest ratios to the jerk limits (twice the margin) */
+    /* for the box tests of plan D (twice the margin): the room of each torque row above
+     * and below (limit less c and Coulomb friction), the viscous term gv = viscous q',
+     * where b < 0 the kappa of the largest b kappa^2 + gv kappa (else -1) and that value,
+     * and the largest kappa every velocity limit allows */
+    ffwd_real thi[FFWD_MAX_DOF], tlo[FFWD_MAX_DOF], gv[FFWD_MAX_DOF], kv[FFWD_MAX_DOF], fv[FFWD_MAX_DOF];
+    ffwd_real k_vel;
 } ffwd_gov_slot;
 
 typedef struct ffwd_governor {

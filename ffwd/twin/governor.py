@@ -125,7 +125,8 @@ def box_join(box, i, kl, kh, ul, uh):
 class Slot:
     """One window sample: the path there, a, b, c, its braking rows, X and Xs."""
     __slots__ = ("q", "dq", "ddq", "dddq", "a", "b", "c", "bA", "bB", "bC", "x_max", "x_safe",
-                 "x_try", "x_plan", "u_try", "u_plan", "vp", "dr", "jb")
+                 "x_try", "x_plan", "u_try", "u_plan", "vp", "dr", "jb", "jr",
+                 "thi", "tlo", "gv", "kv", "fv", "k_vel")
 
 
 class GovernorTwin:
@@ -335,9 +336,11 @@ class GovernorTwin:
                 sl.dr = min(sl.dr, max(room, 0.0) / abs(sl.a[j]))
             if dq > 0.0:
                 sl.dr = min(sl.dr, keep * self.a_max[j] / dq)
+        self.box_rows(sl, keep)
         sl.jb = [[0.0] * n for _ in range(3)]    # |q'|, |q''|, |q'''| bounds on the segment from here
+        sl.jr = [0.0, 0.0, 0.0]                 # their largest ratios to the jerk limits
         if self.window:
-            self.window[-1].jb = self.seg_bounds(self.window[-1], sl)
+            self.window[-1].jb, self.window[-1].jr = self.seg_bounds(self.window[-1], sl)
         self.window.append(sl)
         self.pushed += 1
         self.dirty = True
@@ -540,6 +543,8 @@ class GovernorTwin:
         th (coefficients, constant term first): the quintic Hermite expanded,
         q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5."""
         ds = self.ds
+        keep2 = 1.0 - 2.0 * self.margin
+        jr = [0.0, 0.0, 0.0]
         i1 = 1.0 / ds
         i2 = i1 * i1
         c1, c2 = {}, {}
@@ -575,8 +580,11 @@ class GovernorTwin:
 
     def seg_bounds(self, s0, s1):
         """Bounds of |q'|, |q''|, |q'''| of every jerk-limited joint on the segment from
-        s0 to s1: sums of the absolute coefficients of each polynomial in th on [0, 1]."""
+        s0 to s1: sums of the absolute coefficients of each polynomial in th on [0, 1]; and the largest ratio of each bound to its
+        joint's jerk limit (twice the margin)."""
         ds = self.ds
+        keep2 = 1.0 - 2.0 * self.margin
+        jr = [0.0, 0.0, 0.0]
         i1 = 1.0 / ds
         i2 = i1 * i1
         i3 = i2 * i1
@@ -589,7 +597,9 @@ class GovernorTwin:
             jb[0][j] = (abs(v0) + abs(w0) + abs(3.0 * a3) + abs(4.0 * a4) + abs(5.0 * a5)) * i1
             jb[1][j] = (abs(w0) + abs(6.0 * a3) + abs(12.0 * a4) + abs(20.0 * a5)) * i2
             jb[2][j] = (abs(6.0 * a3) + abs(24.0 * a4) + abs(60.0 * a5)) * i3
-        return jb
+            jm = keep2 * self.j_max[j]
+            jr = [max(jr[t], jb[t][j] / jm) for t in range(3)]
+        return jb, jr
 
     def seg_of(self, s):
         """The window segment of progress s (the last one past the end)."""
@@ -630,6 +640,12 @@ class GovernorTwin:
         if a + 1 < nseg and a + 1 in box:
             c = box[a + 1]
             kk, uu = max(kk, c[1]), max(uu, max(abs(c[2]), abs(c[3])))
+        r1, r2, r3 = w[a].jr
+        if a + 1 < nseg:
+            r1, r2, r3 = max(r1, w[a + 1].jr[0]), max(r2, w[a + 1].jr[1]), max(r3, w[a + 1].jr[2])
+        # the largest ratios of all joints at once: where they fit, every joint does
+        if r3 * kk * kk * kk + 3.0 * r2 * kk * uu + r1 * Vp * (1.0 + 1e-9) <= 1.0:
+            return True
         for j in range(self.n):
             if self.j_max[j] is None:
                 continue
@@ -769,6 +785,28 @@ class GovernorTwin:
             kl = sqrt0(x0 - 2.0 * D * (hi_s - s))
             box_join(box, i, kl, kh, -D, -D)
 
+    def box_rows(self, sl, keep):
+        """What the box tests of plan D need at sample sl (limits reduced by keep): the
+        room of each torque row above and below (limit less c and Coulomb friction), the
+        viscous term gv = viscous q', where b < 0 the kappa of the largest
+        b kappa^2 + gv kappa (else -1) and that value, the largest kappa every velocity
+        limit allows."""
+        n = self.n
+        sl.thi, sl.tlo, sl.gv, sl.kv, sl.fv = ([0.0] * n for _ in range(5))
+        sl.k_vel = BIG
+        for j in range(n):
+            fc = self.coulomb[j] * sgn(sl.dq[j])
+            tm, b = keep * self.tau_max[j], sl.b[j]
+            gv = self.viscous[j] * sl.dq[j]
+            sl.thi[j] = tm - sl.c[j] - max(fc, 0.0)
+            sl.tlo[j] = -tm - sl.c[j] - min(fc, 0.0)
+            sl.gv[j], sl.kv[j], sl.fv[j] = gv, -1.0, 0.0
+            if b < 0.0:
+                kv = -gv / (2.0 * b)
+                sl.kv[j], sl.fv[j] = kv, b * (kv * kv) + gv * kv
+            if abs(sl.dq[j]) > 0.0:
+                sl.k_vel = min(sl.k_vel, keep * self.v_max[j] / abs(sl.dq[j]))
+
     def box_fits(self, sl, kl, kh, ul, uh):
         """Every limit of sample sl (twice the margin) over the box of states. Each row
         is a sum of a term in u and one in kappa, so its extremes over the box are the
@@ -776,24 +814,17 @@ class GovernorTwin:
         interior maximum."""
         keep2 = 1.0 - 2.0 * self.margin
         xl, xh = kl * kl, kh * kh
-        if xh > sl.x_max:
+        if xh > sl.x_max or kh > sl.k_vel:
             return False
         for j in range(self.n):
-            dq, ddq, a, b = sl.dq[j], sl.ddq[j], sl.a[j], sl.b[j]
-            fc = self.coulomb[j] * sgn(dq)
-            tm, am = keep2 * self.tau_max[j], keep2 * self.a_max[j]
-            if abs(dq) * kh > keep2 * self.v_max[j]:
-                return False
-            gv = self.viscous[j] * dq
+            dq, ddq, a, b, gv = sl.dq[j], sl.ddq[j], sl.a[j], sl.b[j], sl.gv[j]
+            am = keep2 * self.a_max[j]
             f0, f1 = b * xl + gv * kl, b * xh + gv * kh
-            fhi, flo = max(f0, f1), min(f0, f1)
-            if b < 0.0 and kl < -gv / (2.0 * b) < kh:
-                kv = -gv / (2.0 * b)                      # interior maximum of b x + gv kappa
-                fhi = max(fhi, b * (kv * kv) + gv * kv)
+            fhi = max(f0, f1)
+            if kl < sl.kv[j] < kh:
+                fhi = max(fhi, sl.fv[j])                  # interior maximum of b x + gv kappa
             u0, u1 = a * ul, a * uh
-            if max(u0, u1) + fhi + sl.c[j] + max(fc, 0.0) > tm:
-                return False
-            if min(u0, u1) + flo + sl.c[j] + min(fc, 0.0) < -tm:
+            if max(u0, u1) + fhi > sl.thi[j] or min(u0, u1) + min(f0, f1) < sl.tlo[j]:
                 return False
             e0, e1, v0, v1 = ddq * xl, ddq * xh, dq * ul, dq * uh
             if max(e0, e1) + max(v0, v1) > am or min(e0, e1) + min(v0, v1) < -am:
