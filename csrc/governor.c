@@ -403,6 +403,7 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
             sl->dr = minr(sl->dr, keep * J->a_max / d);
     }
     sl->k_vel = BIG;
+    sl->fit_ok = 0u;
     for (j = 0; j < n; j++) {
         const ffwd_joint *J = &m->joint[j];
         const ffwd_real fc = J->coulomb * sgnr(sl->dq[j]), tm = keep * J->tau_max, bb = sl->b[j];
@@ -799,6 +800,34 @@ static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_
 }
 
 
+/* box_fits with the sample's kept box: a box inside one known to fit fits (each row's
+ * extremes over a box only grow with the box: the answer box_fits would give, up to a
+ * rounding of the rows' values); else a box 20 % wider is tried first and kept when it
+ * fits, so that the boxes of the next steps' plans, near this one, fall inside it (on
+ * the bench path about 4 tests in 5 are saved so) */
+static int box_fits_kept(const ffwd_governor *g, ffwd_gov_slot *sl, const ffwd_real *b)
+{
+    const ffwd_real e = FR(0.2), du = e * (absr(b[2]) + absr(b[3]));
+    ffwd_real w[4];
+    if (sl->fit_ok && b[0] >= sl->fit_box[0] && b[1] <= sl->fit_box[1] && b[2] >= sl->fit_box[2]
+        && b[3] <= sl->fit_box[3])
+        return 1;
+    w[0] = b[0] * (FR(1) - e);
+    w[1] = b[1] * (FR(1) + e);
+    w[2] = b[2] - du;
+    w[3] = b[3] + du;
+    if (box_fits(g, sl, w)) {
+        memcpy(sl->fit_box, w, sizeof w);
+        sl->fit_ok = 1u;
+        return 1;
+    }
+    if (!box_fits(g, sl, b))
+        return 0;
+    memcpy(sl->fit_box, b, sizeof sl->fit_box);
+    sl->fit_ok = 1u;
+    return 1;
+}
+
 /* The window segment of progress s (the last one past the end). */
 static uint32_t seg_of(const ffwd_governor *g, ffwd_real s)
 {
@@ -1119,7 +1148,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         } else {
             memcpy(bb, g->box[l ? i - 1u : i], sizeof bb);
         }
-        if (!box_fits(g, slot_at(g, i), bb))
+        if (!box_fits_kept(g, slot_at(g, i), bb))
             return 0;
     }
     if (!g->any_jerk)

@@ -104,6 +104,10 @@ typedef struct ffwd_gov_slot {     /* one window sample (internal) */
      * and the largest kappa every velocity limit allows */
     ffwd_real thi[FFWD_MAX_DOF], tlo[FFWD_MAX_DOF], gv[FFWD_MAX_DOF], kv[FFWD_MAX_DOF], fv[FFWD_MAX_DOF];
     ffwd_real k_vel;
+    /* a box of states (kappa low, high, u low, high) known to meet every limit here
+     * (fit_ok 1; 0: none yet): a box inside it needs no test */
+    ffwd_real fit_box[4];
+    uint32_t fit_ok;
 } ffwd_gov_slot;
 
 typedef struct ffwd_governor {

@@ -811,7 +811,8 @@ class GovernorTwin:
         """Every limit of sample sl (twice the margin) over the box of states. Each row
         is a sum of a term in u and one in kappa, so its extremes over the box are the
         sums of theirs: a u at ul, uh; b x + gv kappa at kl, kh and, where b < 0, its
-        interior maximum."""
+        interior maximum. (The C core also keeps per sample a box known to fit and
+        accepts a box inside it untested: the same answer, up to rounding.)"""
         keep2 = 1.0 - 2.0 * self.margin
         xl, xh = kl * kl, kh * kh
         if xh > sl.x_max or kh > sl.k_vel:
