@@ -151,6 +151,8 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
     g->plan_D = FR(0);
     g->plan_Vp = FR(0);
+    g->try_first = 1u;
+    g->try_last = 0u;
     /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
     reach = cfg->override_max * cfg->dt + FR(0.5) * cfg->rate_max * cfg->dt * cfg->dt;
     g->pieces = 1;
@@ -681,7 +683,8 @@ static int jump_ok(const ffwd_governor *g, uint32_t i, ffwd_real pos, ffwd_real 
 /* Plan P: brake at each sample's smallest admissible u (the fastest stop, what the safe
  * curve assumes) from (sig, kap) after a cycle at u; the changes of u at the samples and
  * the last one, to rest, must each fit in one cycle's rate of rate h. Writes the plan's
- * x per sample into x_try (0 after rest); 1 if it holds. */
+ * x and u per sample into x_try, u_try from sample try_first to try_last (0 elsewhere:
+ * before it, or at rest); 1 if it holds. */
 static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real h)
 {
     const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
@@ -692,10 +695,7 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
     int first = 1;
     if (i >= last)
         return 0;
-    for (k = 0; k < g->count; k++) {
-        slot_at(g, k)->x_try = FR(0);
-        slot_at(g, k)->u_try = FR(0);
-    }
+    g->try_first = i0;                       /* x_try, u_try are written from here on */
     for (;;) {
         ffwd_gov_slot *s0 = slot_at(g, i), *s1 = slot_at(g, i + 1u);
         ffwd_real d = (ffwd_real)(i + 1u) * ds - pos, L, xe;
@@ -728,6 +728,7 @@ static int plan_fast(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u
             return 0;
         s0->x_try = x - FR(2) * L * (pos - (ffwd_real)i * ds);
         s0->u_try = L;
+        g->try_last = i;
         if (xe <= FR(0))
             return absr(L) <= h;
         if (i + 1u >= last || xe > s1->x_max || brake_u(g, s1, xe) > L + FR(1e-9) * (FR(1) + absr(L))
@@ -1220,8 +1221,10 @@ static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp)
     }
     if (kind == (int)FFWD_GOV_PLAN_FAST)
         for (k = 0; k < g->count; k++) {
-            slot_at(g, k)->x_plan = slot_at(g, k)->x_try;
-            slot_at(g, k)->u_plan = slot_at(g, k)->u_try;
+            ffwd_gov_slot *sl = slot_at(g, k);
+            const int in = k >= g->try_first && k <= g->try_last;   /* else 0: before, at rest */
+            sl->x_plan = in ? sl->x_try : FR(0);
+            sl->u_plan = in ? sl->u_try : FR(0);
         }
     return 1;
 }
