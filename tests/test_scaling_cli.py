@@ -73,3 +73,20 @@ def test_bad_step_times_are_located(tmp_path, move, capsys):
     assert main(["govern", MODEL, str(move), "--step", "0:1,0:0", "--out", str(tmp_path)]) == 2
     err = capsys.readouterr().err
     assert "--step: item 2 '0:0'" in err and "does not increase" in err
+
+
+def test_govern_names_a_window_that_holds_the_speed_down(tmp_path, capsys):
+    # the demo move at command 1 (the six-axis model's jerk limits bind): with a
+    # 64-sample window the override stays near 0.6-0.75 all along, with 256 near 1; only
+    # the short window gets the note and a large window_bound_share
+    model, move = "examples/robots/six_axis.toml", "examples/scenario/waypoints.csv"
+    shares = {}
+    for h in (64, 256):
+        out = tmp_path / f"h{h}"
+        assert main(["govern", model, move, "--step", "0:1", "--horizon", str(h),
+                     "--out", str(out)]) == 0
+        shares[h] = json.loads((out / "summary.json").read_text())["window_bound_share"]
+        printed = capsys.readouterr().out
+        assert ("longer --horizon" in printed) == (h == 64)
+        assert "held below the command" in (out / "summary.md").read_text()
+    assert shares[64] > 0.5 and shares[256] < 0.1

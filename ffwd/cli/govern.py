@@ -86,7 +86,7 @@ def run(args):
     from ..plots.scaling import plot_override, plot_run_torques
     from ..scaling import Governor, Path
     from ..scaling.check import violations
-    from ..scaling.report import run_markdown, run_report
+    from ..scaling.report import run_markdown, run_report, window_bound_share
     from ..trajio import write_trajectory
     robot = load_model(args.model)
     path = Path.from_csv(args.path, robot)
@@ -107,14 +107,21 @@ def run(args):
         extra[f"tau_{n}"] = run_.tau[:, j]
     write_trajectory(os.path.join(args.out, "command.csv"), run_.t, names, run_.q, run_.qd,
                      run_.qdd, extra)
+    share = window_bound_share(run_, robot, path, args.margin, args.override_max)
+    report = run_report(run_, robot, v)
+    report["window_bound_share"] = share
     with open(os.path.join(args.out, "summary.json"), "w") as fh:
-        json.dump(run_report(run_, robot, v), fh, indent=2)
+        json.dump(report, fh, indent=2)
     with open(os.path.join(args.out, "summary.md"), "w") as fh:
-        fh.write(run_markdown(run_, robot, v))
+        fh.write(run_markdown(run_, robot, v, share))
     plot_override(run_, os.path.join(args.out, "override.png"))
     plot_run_torques(robot, run_, os.path.join(args.out, "torques.png"))
     bad = v["torque"] + v["velocity"] + v["acceleration"]
     print(f"{'done' if run_.done else 'NOT finished'} in {run_.duration:.4f} s, "
           f"{bad} limit violations; wrote {args.out}/command.csv, summary.md, summary.json, "
           "override.png, torques.png")
+    if share is not None and share > 0.1:
+        print(f"note: for {100 * share:.0f} % of the cycles the window ({args.horizon} samples) "
+              "held the override below the command and below what the limits allow (it must "
+              "always hold a complete stop); a longer --horizon lets the robot run faster")
     return 0 if (run_.done and bad == 0) else 1

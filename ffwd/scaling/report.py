@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["plan_report", "plan_markdown", "run_report", "run_markdown"]
+__all__ = ["plan_report", "plan_markdown", "run_report", "run_markdown", "window_bound_share"]
 
 
 def plan_report(plan, robot=None):
@@ -62,7 +62,7 @@ def run_report(run, robot, violations=None):
     }
 
 
-def run_markdown(run, robot, violations=None):
+def run_markdown(run, robot, violations=None, window_share=None):
     rep = run_report(run, robot, violations)
     lines = ["# Governor run", "",
              f"- end of path reached at rest: **{rep['done']}** after {rep['duration_s']:.4f} s "
@@ -78,4 +78,29 @@ def run_markdown(run, robot, violations=None):
                      f"acceleration {violations['acceleration']} (worst ratios "
                      f"{violations['torque_worst']:.4f}, {violations['velocity_worst']:.4f}, "
                      f"{violations['acceleration_worst']:.4f})")
+    if window_share is not None:
+        lines.append(f"- override held below the command and below what the limits allow by "
+                     f"the window (it must hold a complete stop): {100 * window_share:.1f} % of "
+                     f"cycles")
     return "\n".join(lines) + "\n"
+
+
+def window_bound_share(run, robot, path, margin, override_max=1.0, grid=1000):
+    """Share of a governor run's cycles where the window, not the limits, held the override
+    down: cycles flagged capped (the target or the step's u held below the command) whose
+    applied override is below 0.95 of what the limits and the path's end allow there (sqrt
+    of the offline plan's Xs at the same progress, limits held back by 2 margin as the
+    governor's safe curve does, at most the command). The window must always hold a
+    complete stop, under the jerk limits a jerk-bounded one. None when the offline plan
+    cannot be made."""
+    from .topp import time_optimal
+    if not len(run.t):
+        return 0.0
+    try:
+        plan = time_optimal(robot, path, grid=grid, margin=2.0 * margin, jerk=False)
+    except ValueError:
+        return None
+    bound = np.sqrt(np.maximum(np.interp(run.s, plan.s, plan.x_safe), 0.0))
+    bound = np.minimum(np.minimum(bound, override_max), run.command)
+    held = ((run.flags & 4) != 0) & (run.override < 0.95 * bound)
+    return float(held.mean())
