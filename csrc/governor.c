@@ -358,7 +358,7 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     r = sqrt0(X);
     for (i = 0; i < cols; i++) {
         int dominated = 0;
-        for (p = 0; p < cols; p++) {
+        for (p = 0; p < cols && !dominated; p++) {
             ffwd_real dB = lB[p] - lB[i], dG = lG[p] - lG[i], dD = lD[p] - lD[i];
             int ok;
             if (p == i)
