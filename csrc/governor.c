@@ -332,6 +332,7 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
      * limit of joint j bounds x alone somewhere in between: bound x at both samples */
     if (g->count > 0u) {
         ffwd_gov_slot *pv = slot_at(g, g->count - 1u);
+        pv->fit_ok = 0u;            /* its x_max may drop below: no box kept from before */
         for (j = 0; j < n; j++) {
             const ffwd_joint *J = &m->joint[j];
             if (pv->dq[j] * dq[j] <= FR(0)) {
@@ -426,6 +427,9 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     ffwd_zero_(sl->jb[0], FFWD_MAX_DOF);
     ffwd_zero_(sl->jb[1], FFWD_MAX_DOF);
     ffwd_zero_(sl->jb[2], FFWD_MAX_DOF);
+    sl->jr[0] = FR(0);
+    sl->jr[1] = FR(0);
+    sl->jr[2] = FR(0);
     if (g->count > 0u)
         seg_bounds(g, slot_at(g, g->count - 1u), sl);
     g->count++;
