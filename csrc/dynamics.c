@@ -95,18 +95,10 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
     }
 }
 
-/* body parameters in the aligned frame (payload lumped into tool_parent) */
-static const ffwd_real *body_params(const ffwd_model *m, const ffwd_work *w, const ffwd_real *tp, uint32_t i)
-{
-    return (int32_t)i == m->tool_parent ? tp : KONST(w, i) + FFWD_K_TH;
-}
-
-/* second moment J of body i (tool_parent: of the body with payload, kept beside it by
- * ffwd_load_tool_body_) */
-static const ffwd_real *body_second_moment(const ffwd_model *m, const ffwd_work *w, uint32_t i)
-{
-    return (int32_t)i == m->tool_parent ? w->scratch + FFWD_OFF_TPJ : KONST(w, i) + FFWD_K_J;
-}
+/* body parameters th' and second moment J of body i in the aligned frame (the payload
+ * lumped into body tool_parent, spatial.h FFWD_OFF_TP) */
+#define BODY_TH(w, i) (KONST(w, i) + FFWD_K_TH)
+#define BODY_J(w, i) (KONST(w, i) + FFWD_K_J)
 
 /* S . F for joint J (F a spatial force; S = e_z in the aligned frame) */
 static ffwd_real s_dot(const ffwd_joint *J, const ffwd_real *F)
@@ -188,6 +180,14 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
     (o0) = (c) * (u0) + (s) * (u1); (o1) = (c) * (u1) - (s) * (u0); (o2) = (u2); } while (0)
 #define RZ(c, s, u0, u1, u2, o0, o1, o2) do { \
     (o0) = (c) * (u0) - (s) * (u1); (o1) = (s) * (u0) + (c) * (u1); (o2) = (u2); } while (0)
+
+/* joint K's type (FFWD_REVOLUTE or FFWD_PRISMATIC), kept beside its constants */
+static int joint_type(const ffwd_real *K)
+{
+    int32_t t;
+    memcpy(&t, K + FFWD_K_TYPE, sizeof t);
+    return (int)t;
+}
 
 /* the kind of joint K's fixed rotation E0 */
 static int e0_kind(const ffwd_real *K)
@@ -275,7 +275,7 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
  * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
-static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
+static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
     ffwd_bits_ acc = 0u;
@@ -355,8 +355,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
     }
     for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
         const uint32_t j = FORCE_LANES > 1 && i + 1u < n ? i + 1u : i;
-        body_forces(BODY(w, i), BODY(w, j), body_params(m, w, tp, i), body_params(m, w, tp, j),
-                     body_second_moment(m, w, i), body_second_moment(m, w, j));
+        body_forces(BODY(w, i), BODY(w, j), BODY_TH(w, i), BODY_TH(w, j),
+                     BODY_J(w, i), BODY_J(w, j));
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
@@ -409,7 +409,6 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const ffwd_real *in[3];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_status st;
     /* qd and qdd are not scanned here: a non-finite qd[i] or qdd[i] makes tau[i]
      * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
@@ -421,9 +420,9 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_tool_body_(m, w);
+    ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
-    if (id_pass(m, w, tp, qd, qdd, m->gravity, tau, 1))
+    if (id_pass(m, w, qd, qdd, m->gravity, tau, 1))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -432,35 +431,56 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18. */
-static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, ffwd_real *tau)
+static int gravity_pass(const ffwd_model *m, ffwd_work *w, ffwd_real *tau)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
-        /* serial chain: the parent's g and the child's mass and first moment stay in
-         * registers */
-        ffwd_real g0 = m->gravity[0], g1 = m->gravity[1], g2 = m->gravity[2];
-        ffwd_real Mc = FR(0), c0 = FR(0), c1 = FR(0), c2 = FR(0);
-        for (i = 0; i < m->dof; i++) {
-            const ffwd_real *K = KONST(w, i);
-            ffwd_real *B = BODY(w, i), u0, u1, u2;
+        /* serial chain, E0 = Rx(beta) after the first joint (spatial.h FFWD_OFF_CHAIN):
+         * the parent's g and the child's mass and first moment stay in registers. Joint
+         * 0 starts from E0_0^T g, cached by ffwd_work_init, and has no parent to pass its
+         * subtree to. */
+        const uint32_t n = m->dof;
+        const ffwd_real *g0c = w->scratch + FFWD_OFF_G0, *K = KONST(w, 0);
+        ffwd_real *B = BODY(w, 0);
+        ffwd_real g0, g1, g2, Mc = FR(0), c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        RZT(cb[0], sb[0], g0c[0], g0c[1], g0c[2], g0, g1, g2);
+        B[12] = g0; B[13] = g1; B[14] = g2;
+        for (i = 1; i < n; i++) {
+            ffwd_real u0, u1, u2;
+            K += FFWD_K_STRIDE;
+            B += FFWD_B_STRIDE;
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
             RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
             B[12] = g0; B[13] = g1; B[14] = g2;
         }
-        for (i = m->dof; i-- > 0u;) {
-            const ffwd_real *B = BODY(w, i), *th = body_params(m, w, tp, i), *K = KONST(w, i);
-            const int rev = m->joint[i].type == FFWD_REVOLUTE;
+        for (i = n - 1u; i > 0u; i--) {
+            const ffwd_real *th = K + FFWD_K_TH;
             const ffwd_real M = th[0] + Mc, h0 = th[1] + c0, h1 = th[2] + c1, h2 = th[3] + c2;
-            const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
-            ffwd_real u0, u1, u2;
-            tau[i] = rev ? B[12] * h1 - B[13] * h0 : -M * B[14];
-            acc |= exp_bits(tau[i]);
+            const ffwd_real *p = K + FFWD_K_P;
+            ffwd_real u0, u1, u2, t;
             RZ(cb[i], sb[i], h0, h1, h2, u0, u1, u2);
+            if (joint_type(K) == FFWD_REVOLUTE) {
+                t = B[12] * h1 - B[13] * h0;
+            } else {
+                t = -M * B[14];
+                p = B + 9;
+            }
+            tau[i] = t;
+            acc |= exp_bits(t);
             E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
             Mc = M;
             c0 += M * p[0]; c1 += M * p[1]; c2 += M * p[2];
+            K -= FFWD_K_STRIDE;
+            B -= FFWD_B_STRIDE;
+        }
+        {
+            const ffwd_real *th = K + FFWD_K_TH;
+            const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (th[2] + c1) - B[13] * (th[1] + c0)
+                                                                : -(th[0] + Mc) * B[14];
+            tau[0] = t;
+            acc |= exp_bits(t);
         }
         return finite_bits(acc);
     }
@@ -468,7 +488,7 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, 
         ffwd_real *B = BODY(w, i);
         const int32_t par = m->joint[i].parent;
         const ffwd_real *gp = par >= 0 ? BODY(w, par) + 12 : m->gravity;
-        const ffwd_real *th = body_params(m, w, tp, i);
+        const ffwd_real *th = BODY_TH(w, i);
         const ffwd_real *K = KONST(w, i);
         const int kind = e0_kind(K);
         ffwd_real u0, u1, u2;
@@ -512,8 +532,9 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
         if (st != FFWD_OK)
             return st;
     }
+    ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
-    if (gravity_pass(m, w, ffwd_tool_body_(m, w), tau))
+    if (gravity_pass(m, w, tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -527,7 +548,6 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     const ffwd_real *in[3];
     ffwd_real *out[4];
     const int shape[4] = { FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_real *zn;
     ffwd_status st;
     uint32_t i;
@@ -538,13 +558,13 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         if (st != FFWD_OK)
             return st;
     }
-    tp = ffwd_tool_body_(m, w);
+    ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
-    (void)id_pass(m, w, tp, zn, qdd, zero3, inertial, 0);
-    (void)id_pass(m, w, tp, qd, zn, zero3, velocity, 0);
-    (void)gravity_pass(m, w, tp, gravity);
+    (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
+    (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
+    (void)gravity_pass(m, w, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);
@@ -564,7 +584,6 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
     const ffwd_real *in[1];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_NN };
-    const ffwd_real *tp;
     ffwd_status st;
     uint32_t i, n, k;
     if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
@@ -574,11 +593,11 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
             return st;
     }
     n = m->dof;
-    tp = ffwd_tool_body_(m, w);
+    ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     ffwd_zero_(M, n * n);
     for (i = 0; i < n; i++) {
-        const ffwd_real *th = body_params(m, w, tp, i);
+        const ffwd_real *th = BODY_TH(w, i);
         ffwd_real *C = AUX(w, i);
         for (k = 0; k < 10u; k++)
             C[k] = th[k];
@@ -697,7 +716,6 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const ffwd_real *in[3];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_status st;
     uint32_t i, n;
     int k, ok = 1;
@@ -708,7 +726,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
             return st;
     }
     n = m->dof;
-    tp = ffwd_tool_body_(m, w);
+    ffwd_tool_body_(m, w);
     ffwd_transforms_(m, w, q);
     /* pass 1: velocities, bias accelerations c = v x S qd, rigid inertias, bias forces */
     {
@@ -718,7 +736,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         ffwd_real *B = BODY(w, i), *X = AUX(w, i), Iv[6];
-        const ffwd_real *th = body_params(m, w, tp, i), *vp;
+        const ffwd_real *th = BODY_TH(w, i), *vp;
         ffwd_real vq[6];
         /* c = a from pass_va (qdd = 0, no gravity) minus the parent's part X a_parent */
         if (J->parent >= 0) {

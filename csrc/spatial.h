@@ -43,7 +43,7 @@
  * vector), or a general rotation (9; base children, second children in a tree).
  * Body parameters are rotated at init (m, A^T h, A^T I A), and the body's second moment
  * J = sum m r r^T = tr(I)/2 1 - I kept beside them. Per joint K(i):
- *   E0[9] p'[3] th'[10] cos alpha, sin alpha, kind (int32 bits), alpha, J[6] */
+ *   E0[9] p'[3] th'[10] cos alpha, sin alpha, kind (int32 bits), joint type (int32 bits), J[6] */
 #define FFWD_K_STRIDE 32
 #define FFWD_OFF_K      0
 #define FFWD_K_E  0
@@ -52,7 +52,7 @@
 #define FFWD_K_CA 22
 #define FFWD_K_SA 23
 #define FFWD_K_KIND 24
-#define FFWD_K_AL 25
+#define FFWD_K_TYPE 25
 #define FFWD_K_J 26
 enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, FFWD_KIND_GEN = 4 };
 /* per-call per-body state: Rt[9] p[3] then 18 numbers (meaning depends on the function) */
@@ -61,11 +61,15 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 /* composite inertia (10) / articulated body data (47) per body */
 #define FFWD_A_STRIDE 48
 #define FFWD_OFF_A      (FFWD_OFF_B + FFWD_B_STRIDE * FFWD_MAX_DOF)
-/* effective payload-lumped parameters of the tool_parent body (aligned frame), and a temp */
+/* the parameters of the tool_parent body without payload (aligned frame), and a temp.
+ * The body parameters th' and J in K(tool_parent) are those of the body with the active
+ * payload lumped in (ffwd_fill_tool_body_, ffwd_load_tool_body_), so that every pass
+ * reads any body's parameters from K(i) alike. */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
-/* the second moment J (6, spatial.h second_moment) of the TP body, kept beside it */
-#define FFWD_OFF_TPJ    FFWD_OFF_TMP
+/* gravity in the frame of joint 0 before its joint rotation, E0_0^T g (cached by
+ * ffwd_work_init; used where FFWD_OFF_CHAIN is set) */
+#define FFWD_OFF_G0     (FFWD_OFF_TMP + 6)
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -81,12 +85,13 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
  * number of prismatic joints */
 #define FFWD_OFF_ALPHA  (FFWD_OFF_X + 96)
 #define FFWD_OFF_NPRIS  (FFWD_OFF_ALPHA + 2 * FFWD_MAX_DOF)
-/* 1 when the model is a serial chain (parent of joint i is i - 1) */
+/* 1 when the model is a serial chain (parent of joint i is i - 1) whose joints after the
+ * first all have E0 = Rx(beta) (kinds I, P90, M90, RX: K[4] = cos beta, K[7] = sin beta) */
 #define FFWD_OFF_CHAIN  (FFWD_OFF_NPRIS + 1)
 #define FFWD_LAYOUT_END (FFWD_OFF_CHAIN + 1)
 
 typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
-typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
+typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64 && FFWD_OFF_G0 + 3 <= FFWD_OFF_ATP) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
@@ -98,18 +103,18 @@ void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t
 int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
 int ffwd_finite_(const ffwd_real *x, uint32_t n);
-/* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
- * (and their second moment at FFWD_OFF_TPJ) and returns a pointer to it (payload.c;
- * readers never wait). */
-const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
-/* The same without a call where no payload box is in use (the TP area is filled then) */
-static inline const ffwd_real *ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
+/* Sets th' and J of K(m->tool_parent) to body tool_parent (TP area) plus the payload
+ * of w's box (payload.c; readers never wait). */
+void ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* The same, no call where no payload box is in use (K(tool_parent) is filled then) */
+static inline void ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
-    return w->payload == NULL ? w->scratch + FFWD_OFF_TP : ffwd_load_tool_body_(m, w);
+    if (w->payload != NULL)
+        ffwd_load_tool_body_(m, w);
 }
-/* Fills w's TP area (and TPJ) with body tool_parent plus the model's payload (payload.c); done by
- * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
- * while no box is in use. */
+/* Sets th' and J of K(m->tool_parent) to body tool_parent plus the model's payload
+ * (payload.c); done by ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else
+ * writes them while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
 /* payload parameters all zero or a physically valid body (model.c). */
 int ffwd_payload_params_ok_(const ffwd_real *th);
