@@ -428,57 +428,80 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     return FFWD_E_NONFINITE;
 }
 
+#define SUB(w, i) ((w)->scratch + FFWD_OFF_SUB + FFWD_SUB_STRIDE * (uint32_t)(i))
+
+void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
+{
+    uint32_t i;
+    ffwd_real M = FR(0);
+    const ffwd_real *pc = NULL;
+    if (w->scratch[FFWD_OFF_CHAIN] == FR(0))
+        return;
+    for (i = m->dof; i-- > 0u;) {
+        const ffwd_real *th = BODY_TH(w, i);
+        ffwd_real *S = SUB(w, i);
+        S[1] = th[1]; S[2] = th[2]; S[3] = th[3];
+        if (pc != NULL) {
+            S[1] += M * pc[0]; S[2] += M * pc[1]; S[3] += M * pc[2];
+        }
+        M += th[0];
+        S[0] = M;
+        pc = KONST(w, i) + FFWD_K_P;
+    }
+}
+
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
- * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18. */
-static int gravity_pass(const ffwd_model *m, ffwd_work *w, ffwd_real *tau)
+ * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
+static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
         /* serial chain, E0 = Rx(beta) after the first joint (spatial.h FFWD_OFF_CHAIN):
-         * the parent's g and the child's mass and first moment stay in registers. Joint
-         * 0 starts from E0_0^T g, cached by ffwd_work_init, and has no parent to pass its
+         * the parent's g stays in registers going out. Coming back, the subtree's mass
+         * and the constant part of its first moment are the subtree constants; only
+         * their rotation (and the slide of a prismatic joint) is left per call. Joint 0
+         * starts from E0_0^T g, cached by ffwd_work_init, and has no parent to pass its
          * subtree to. */
         const uint32_t n = m->dof;
-        const ffwd_real *g0c = w->scratch + FFWD_OFF_G0, *K = KONST(w, 0);
+        const ffwd_real *g0c = w->scratch + FFWD_OFF_G0, *K = KONST(w, 0), *S;
         ffwd_real *B = BODY(w, 0);
-        ffwd_real g0, g1, g2, Mc = FR(0), c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        ffwd_real g0, g1, g2, u0, u1, u2, c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        if (w->payload != NULL)
+            ffwd_subtree_(m, w); /* the box's payload is in K(tool_parent) now */
         RZT(cb[0], sb[0], g0c[0], g0c[1], g0c[2], g0, g1, g2);
         B[12] = g0; B[13] = g1; B[14] = g2;
         for (i = 1; i < n; i++) {
-            ffwd_real u0, u1, u2;
             K += FFWD_K_STRIDE;
             B += FFWD_B_STRIDE;
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
             RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
             B[12] = g0; B[13] = g1; B[14] = g2;
         }
+        S = SUB(w, n - 1u);
         for (i = n - 1u; i > 0u; i--) {
-            const ffwd_real *th = K + FFWD_K_TH;
-            const ffwd_real M = th[0] + Mc, h0 = th[1] + c0, h1 = th[2] + c1, h2 = th[3] + c2;
-            const ffwd_real *p = K + FFWD_K_P;
-            ffwd_real u0, u1, u2, t;
+            const ffwd_real h0 = S[1] + c0, h1 = S[2] + c1, h2 = S[3] + c2;
+            ffwd_real t;
             RZ(cb[i], sb[i], h0, h1, h2, u0, u1, u2);
             if (joint_type(K) == FFWD_REVOLUTE) {
                 t = B[12] * h1 - B[13] * h0;
             } else {
-                t = -M * B[14];
-                p = B + 9;
+                /* the slide q e_z of the child's origin (frame i before E0) */
+                t = -S[0] * B[14];
+                u2 += S[0] * q[i];
             }
             tau[i] = t;
             acc |= exp_bits(t);
             E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
-            Mc = M;
-            c0 += M * p[0]; c1 += M * p[1]; c2 += M * p[2];
             K -= FFWD_K_STRIDE;
             B -= FFWD_B_STRIDE;
+            S -= FFWD_SUB_STRIDE;
         }
         {
-            const ffwd_real *th = K + FFWD_K_TH;
-            const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (th[2] + c1) - B[13] * (th[1] + c0)
-                                                                : -(th[0] + Mc) * B[14];
+            const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (S[2] + c1) - B[13] * (S[1] + c0)
+                                                                : -S[0] * B[14];
             tau[0] = t;
             acc |= exp_bits(t);
         }
@@ -534,7 +557,7 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     }
     ffwd_tool_body_(m, w);
     ffwd_trig_(m, w, q);
-    if (gravity_pass(m, w, tau))
+    if (gravity_pass(m, w, q, tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -564,7 +587,7 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     ffwd_zero_(zn, m->dof);
     (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
     (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
-    (void)gravity_pass(m, w, gravity);
+    (void)gravity_pass(m, w, q, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);

@@ -52,6 +52,7 @@ static FFWD_NOINLINE void tool_body_set(const ffwd_model *m, ffwd_work *w, const
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
     tool_body_set(m, w, w->scratch + FFWD_OFF_PAY);
+    ffwd_subtree_(m, w);
 }
 
 /* Body tool_parent plus the payload of w's box (see spatial.h): the box's payload is

@@ -88,7 +88,12 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 /* 1 when the model is a serial chain (parent of joint i is i - 1) whose joints after the
  * first all have E0 = Rx(beta) (kinds I, P90, M90, RX: K[4] = cos beta, K[7] = sin beta) */
 #define FFWD_OFF_CHAIN  (FFWD_OFF_NPRIS + 1)
-#define FFWD_LAYOUT_END (FFWD_OFF_CHAIN + 1)
+/* subtree constants of a chain (where FFWD_OFF_CHAIN is set; ffwd_subtree_): per joint i
+ * the mass M_i of bodies i..n-1 and the first moment h'_i + M_(i+1) p'_(i+1) (aligned
+ * frame i; the constant part of the child's origin) */
+#define FFWD_SUB_STRIDE 4
+#define FFWD_OFF_SUB    (FFWD_OFF_CHAIN + 1)
+#define FFWD_LAYOUT_END (FFWD_OFF_SUB + FFWD_SUB_STRIDE * FFWD_MAX_DOF)
 
 typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
 typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64 && FFWD_OFF_G0 + 3 <= FFWD_OFF_ATP) ? 1 : -1];
@@ -116,6 +121,10 @@ static inline void ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
  * (payload.c); done by ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else
  * writes them while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* The subtree constants (FFWD_OFF_SUB) of a chain from K (dynamics.c); nothing for a
+ * model that is not one. Done with ffwd_fill_tool_body_; with a payload box, by the
+ * function that reads them. */
+void ffwd_subtree_(const ffwd_model *m, ffwd_work *w);
 /* payload parameters all zero or a physically valid body (model.c). */
 int ffwd_payload_params_ok_(const ffwd_real *th);
 /* Entry checks shared by the per-cycle functions (model.c). in: nin input vectors of
