@@ -25,29 +25,38 @@
 #define TRIG_C(w) ((w)->scratch + FFWD_OFF_TRIG + 2 * FFWD_TRIG_STRIDE)
 
 /* sin, cos of theta = q + alpha (revolute) or alpha (prismatic) of every joint, two at a
- * time; p = p' + q E0 e_z of every prismatic joint */
-void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
+ * time; p = p' + q E0 e_z of every prismatic joint. The sum of q^2 rides along: the
+ * entry test of q (spatial.h) at two products and sums per joint. */
+int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     ffwd_real *qb = TRIG_Q(w);
     const ffwd_real *al = w->scratch + FFWD_OFF_ALPHA, *rv = al + FFWD_MAX_DOF;
     const uint32_t n = m->dof;
     uint32_t i;
+    ffwd_real ss0 = FR(0), ss1 = FR(0);
 #ifdef FFWD_SINGLE
     /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
      * sin/cos of q, then the offset by the angle-sum formulas below */
     (void)al;
-    for (i = 0; i < n; i++)
+    for (i = 0; i < n; i++) {
         qb[i] = rv[i] * q[i];
+        ss0 += q[i] * q[i];
+    }
 #else
     /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
      * time (one vector instruction each where the target has two-lane vectors) */
     for (i = 0; i + 1u < n; i += 2u) {
-        const ffwd_real x0 = rv[i] * q[i] + al[i], x1 = rv[i + 1u] * q[i + 1u] + al[i + 1u];
-        qb[i] = x0;
-        qb[i + 1u] = x1;
+        const ffwd_real q0 = q[i], q1 = q[i + 1u];
+        qb[i] = rv[i] * q0 + al[i];
+        qb[i + 1u] = rv[i + 1u] * q1 + al[i + 1u];
+        ss0 += q0 * q0;
+        ss1 += q1 * q1;
     }
-    if (n & 1u)
-        qb[n - 1u] = rv[n - 1u] * q[n - 1u] + al[n - 1u];
+    if (n & 1u) {
+        const ffwd_real q0 = q[n - 1u];
+        qb[n - 1u] = rv[n - 1u] * q0 + al[n - 1u];
+        ss0 += q0 * q0;
+    }
 #endif
     qb[n] = FR(0);
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
@@ -71,6 +80,7 @@ void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
         *cp = cq * ca - sq * sa;
     }
 #endif
+    return ss0 + ss1 < FFWD_Q_MAX_ * FFWD_Q_MAX_;
 }
 
 /* R = E0 Rz(theta) and p of every body */
@@ -79,7 +89,7 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     int r;
-    ffwd_trig_(m, w, q);
+    (void)ffwd_trig_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E;
         const ffwd_real s = sb[i], c = cb[i];
@@ -414,14 +424,14 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
      * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
      * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
      * tau zeroed, as the entry check would */
-    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_head_(m, w, q) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
     ffwd_tool_body_(m, w);
-    ffwd_trig_(m, w, q);
     if (id_pass(m, w, qd, qdd, m->gravity, tau, 1))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
@@ -549,14 +559,14 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
-    if (!(tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(tau != NULL && ffwd_ready_head_(m, w, q) && ffwd_trig_(m, w, q))) {
         in[0] = q; out[0] = tau;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
     ffwd_tool_body_(m, w);
-    ffwd_trig_(m, w, q);
     if (gravity_pass(m, w, q, tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
@@ -582,7 +592,7 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
             return st;
     }
     ffwd_tool_body_(m, w);
-    ffwd_trig_(m, w, q);
+    (void)ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
     (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);

@@ -135,8 +135,11 @@ enum { FFWD_SHAPE_N = 0, FFWD_SHAPE_NN = 1, FFWD_SHAPE_44 = 2, FFWD_SHAPE_6N = 3
 ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
                         ffwd_real *const *out, const int *shape, int nout);
 /* sin theta, cos theta (theta = q + alpha, or alpha for a prismatic joint) into the trig
- * area, and p of every prismatic body into B(i) + 9 (dynamics.c). */
-void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+ * area, and p of every prismatic body into B(i) + 9 (dynamics.c). Returns 1 when the sum
+ * of q[i]^2 is below FFWD_Q_MAX_^2 (so every q[i] passes ffwd_ready_'s test of its first
+ * input; NaN and Inf fail), else 0: the caller then runs ffwd_enter_, which finds whether
+ * some q[i] really fails, and calls ffwd_trig_ again if none does. */
+int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Full R = E0 Rz(theta), p of every body (aligned frames) into the work's body area
  * (dynamics.c); calls ffwd_trig_. */
 void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
@@ -204,16 +207,22 @@ static inline int finite_bits(ffwd_bits_ acc)
  * beyond any real joint angle, but not for any double), and the inputs b, c (when not
  * NULL) finite, over dof entries. When it fails the caller
  * runs ffwd_enter_, which finds the reason and zeroes the outputs. */
+/* The first part of ffwd_ready_ (m, w, a non-null, bound, dof in range), for a function
+ * whose ffwd_trig_ call tests the joint positions a (see ffwd_trig_). */
+static inline int ffwd_ready_head_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a)
+{
+    return m != NULL && w != NULL && a != NULL && w->model == m && w->stamp == ffwd_stamp_of_(m)
+        && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
+}
+
 static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a,
                               const ffwd_real *b, const ffwd_real *c)
 {
     uint32_t i, n;
     uint64_t acc = 0u;
-    if (m == NULL || w == NULL || a == NULL || w->model != m || w->stamp != ffwd_stamp_of_(m))
+    if (!ffwd_ready_head_(m, w, a))
         return 0;
     n = m->dof;
-    if (n < 1u || n > (uint32_t)FFWD_MAX_DOF)
-        return 0;
     for (i = 0; i < n; i++) {
 #ifdef FFWD_SINGLE
         uint32_t u;
