@@ -469,27 +469,27 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
-        /* serial chain, E0 = Rx(beta) after the first joint (spatial.h FFWD_OFF_CHAIN):
-         * the parent's g stays in registers going out. Coming back, the subtree's mass
-         * and the constant part of its first moment are the subtree constants; only
-         * their rotation (and the slide of a prismatic joint) is left per call. Joint 0
-         * starts from E0_0^T g, cached by ffwd_work_init, and has no parent to pass its
+        /* serial chain (spatial.h FFWD_OFF_CHAIN): the parent's g stays in registers
+         * going out. Coming back, the subtree's mass and the constant part of its first
+         * moment are the subtree constants (FFWD_OFF_SUB); only their rotation (and the
+         * slide of a prismatic joint) is left per call. Joint 0 has no parent to pass its
          * subtree to. */
         const uint32_t n = m->dof;
-        const ffwd_real *g0c = w->scratch + FFWD_OFF_G0, *K = KONST(w, 0), *S;
+        const ffwd_real *K = KONST(w, 0), *S;
         ffwd_real *B = BODY(w, 0);
         ffwd_real g0, g1, g2, u0, u1, u2, c0 = FR(0), c1 = FR(0), c2 = FR(0);
         if (w->payload != NULL)
             ffwd_subtree_(m, w); /* the box's payload is in K(tool_parent) now */
-        RZT(cb[0], sb[0], g0c[0], g0c[1], g0c[2], g0, g1, g2);
-        B[12] = g0; B[13] = g1; B[14] = g2;
-        for (i = 1; i < n; i++) {
-            K += FFWD_K_STRIDE;
-            B += FFWD_B_STRIDE;
+        g0 = m->gravity[0]; g1 = m->gravity[1]; g2 = m->gravity[2];
+        for (i = 0; i < n; i++) {
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
             RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
             B[12] = g0; B[13] = g1; B[14] = g2;
+            K += FFWD_K_STRIDE;
+            B += FFWD_B_STRIDE;
         }
+        K -= FFWD_K_STRIDE;
+        B -= FFWD_B_STRIDE;
         S = SUB(w, n - 1u);
         for (i = n - 1u; i > 0u; i--) {
             const ffwd_real h0 = S[1] + c0, h1 = S[2] + c1, h2 = S[3] + c2;

@@ -471,13 +471,9 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
         w->scratch[FFWD_OFF_NPRIS] += rev ? FR(0) : FR(1);
     }
     w->scratch[FFWD_OFF_CHAIN] = FR(1);
-    for (i = 0; i < m->dof; i++) {
-        int32_t kind;
-        memcpy(&kind, w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i + FFWD_K_KIND, sizeof kind);
-        if (m->joint[i].parent != (int32_t)i - 1 || (i > 0u && kind == FFWD_KIND_GEN))
+    for (i = 0; i < m->dof; i++)
+        if (m->joint[i].parent != (int32_t)i - 1)
             w->scratch[FFWD_OFF_CHAIN] = FR(0);
-    }
-    m3_tmul(w->scratch + FFWD_OFF_K + FFWD_K_E, m->gravity, w->scratch + FFWD_OFF_G0);
     Atp = w->scratch + FFWD_OFF_ATP;
     tool = w->scratch + FFWD_OFF_TOOL;
     for (r = 0; r < 9; r++)

@@ -67,9 +67,6 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
  * reads any body's parameters from K(i) alike. */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
-/* gravity in the frame of joint 0 before its joint rotation, E0_0^T g (cached by
- * ffwd_work_init; used where FFWD_OFF_CHAIN is set) */
-#define FFWD_OFF_G0     (FFWD_OFF_TMP + 6)
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -85,8 +82,7 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
  * number of prismatic joints */
 #define FFWD_OFF_ALPHA  (FFWD_OFF_X + 96)
 #define FFWD_OFF_NPRIS  (FFWD_OFF_ALPHA + 2 * FFWD_MAX_DOF)
-/* 1 when the model is a serial chain (parent of joint i is i - 1) whose joints after the
- * first all have E0 = Rx(beta) (kinds I, P90, M90, RX: K[4] = cos beta, K[7] = sin beta) */
+/* 1 when the model is a serial chain (parent of joint i is i - 1) */
 #define FFWD_OFF_CHAIN  (FFWD_OFF_NPRIS + 1)
 /* subtree constants of a chain (where FFWD_OFF_CHAIN is set; ffwd_subtree_): per joint i
  * the mass M_i of bodies i..n-1 and the first moment h'_i + M_(i+1) p'_(i+1) (aligned
@@ -96,7 +92,7 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 #define FFWD_LAYOUT_END (FFWD_OFF_SUB + FFWD_SUB_STRIDE * FFWD_MAX_DOF)
 
 typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
-typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64 && FFWD_OFF_G0 + 3 <= FFWD_OFF_ATP) ? 1 : -1];
+typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
