@@ -221,13 +221,14 @@ static int e0_kind(const ffwd_real *K)
 #endif
 
 /* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
- * and J(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
+ * and J(l) (in K(l)): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial
+ * vector of Om J - (Om J)^T into 27.
  * The bodies are independent, so every line is the same operation on each lane (one
  * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
  * of the code, with its own registers. */
-static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *t0,
-                                      const ffwd_real *t1, const ffwd_real *J0, const ffwd_real *J1)
+static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *K0, const ffwd_real *K1)
 {
+    const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
     ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
     ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
     ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
@@ -363,10 +364,18 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
     }
-    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
-        const uint32_t j = FORCE_LANES > 1 && i + 1u < n ? i + 1u : i;
-        body_forces(BODY(w, i), BODY(w, j), BODY_TH(w, i), BODY_TH(w, j),
-                     BODY_J(w, i), BODY_J(w, j));
+    {
+        /* FORCE_LANES bodies at a time; an odd last body twice (lanes of the same body) */
+        ffwd_real *B = BODY(w, 0);
+        const ffwd_real *K = KONST(w, 0);
+        const uint32_t k = FORCE_LANES > 1 ? 1u : 0u;
+        for (i = 0; i + k < n; i += (uint32_t)FORCE_LANES) {
+            body_forces(B, B + k * FFWD_B_STRIDE, K, K + k * FFWD_K_STRIDE);
+            B += FORCE_LANES * FFWD_B_STRIDE;
+            K += FORCE_LANES * FFWD_K_STRIDE;
+        }
+        if (i < n)
+            body_forces(B, B, K, K);
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
