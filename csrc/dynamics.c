@@ -84,12 +84,11 @@ int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 }
 
 /* R = E0 Rz(theta) and p of every body */
-void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
+int ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
-    int r;
-    (void)ffwd_trig_(m, w, q);
+    int r, ok = ffwd_trig_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E;
         const ffwd_real s = sb[i], c = cb[i];
@@ -103,6 +102,7 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
             R[9] = K[FFWD_K_P]; R[10] = K[FFWD_K_P + 1]; R[11] = K[FFWD_K_P + 2];
         }
     }
+    return ok;
 }
 
 /* body parameters th' and second moment J of body i in the aligned frame (the payload
@@ -433,7 +433,7 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
      * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
      * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
      * tau zeroed, as the entry check would */
-    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_head_(m, w, q) && ffwd_trig_(m, w, q))) {
+    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
@@ -568,7 +568,7 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
-    if (!(tau != NULL && ffwd_ready_head_(m, w, q) && ffwd_trig_(m, w, q))) {
+    if (!(tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; out[0] = tau;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
@@ -593,15 +593,16 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     ffwd_real *zn;
     ffwd_status st;
     uint32_t i;
-    if (!(qd != NULL && qdd != NULL && inertial != NULL && velocity != NULL && gravity != NULL && friction != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+    if (!(qd != NULL && qdd != NULL && inertial != NULL && velocity != NULL && gravity != NULL && friction != NULL
+          && ffwd_ready_(m, w, q, qd, qdd) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd;
         out[0] = inertial; out[1] = velocity; out[2] = gravity; out[3] = friction;
         st = ffwd_enter_(m, w, in, 3, out, shape, 4);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
     ffwd_tool_body_(m, w);
-    (void)ffwd_trig_(m, w, q);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
     (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
@@ -628,15 +629,15 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
     const int shape[1] = { FFWD_SHAPE_NN };
     ffwd_status st;
     uint32_t i, n, k;
-    if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_transforms_(m, w, q))) {
         in[0] = q; out[0] = M;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
     ffwd_tool_body_(m, w);
-    ffwd_transforms_(m, w, q);
     ffwd_zero_(M, n * n);
     for (i = 0; i < n; i++) {
         const ffwd_real *th = BODY_TH(w, i);
@@ -761,15 +762,15 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     ffwd_status st;
     uint32_t i, n;
     int k, ok = 1;
-    if (!(qd != NULL && tau != NULL && qdd != NULL && ffwd_ready_(m, w, q, qd, tau))) {
+    if (!(qd != NULL && tau != NULL && qdd != NULL && ffwd_ready_(m, w, q, qd, tau) && ffwd_transforms_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = tau; out[0] = qdd;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
     ffwd_tool_body_(m, w);
-    ffwd_transforms_(m, w, q);
     /* pass 1: velocities, bias accelerations c = v x S qd, rigid inertias, bias forces */
     {
         ffwd_real zg[3] = { 0, 0, 0 };

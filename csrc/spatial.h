@@ -132,13 +132,13 @@ ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real
                         ffwd_real *const *out, const int *shape, int nout);
 /* sin theta, cos theta (theta = q + alpha, or alpha for a prismatic joint) into the trig
  * area, and p of every prismatic body into B(i) + 9 (dynamics.c). Returns 1 when the sum
- * of q[i]^2 is below FFWD_Q_MAX_^2 (so every q[i] passes ffwd_ready_'s test of its first
- * input; NaN and Inf fail), else 0: the caller then runs ffwd_enter_, which finds whether
- * some q[i] really fails, and calls ffwd_trig_ again if none does. */
+ * of q[i]^2 is below FFWD_Q_MAX_^2 (so every q[i] is finite with |q[i]| < FFWD_Q_MAX_;
+ * NaN and Inf fail), else 0: the caller then runs ffwd_enter_, which tests the q[i] one
+ * by one, and calls ffwd_trig_ again if none fails (see ffwd_ready_). */
 int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Full R = E0 Rz(theta), p of every body (aligned frames) into the work's body area
- * (dynamics.c); calls ffwd_trig_. */
-void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+ * (dynamics.c); calls ffwd_trig_ and returns what it returns. */
+int ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Forward pass of spatial velocity and acceleration of every body (aligned frames), base
  * acceleration -g; qd or qdd NULL means zero (dynamics.c). Needs ffwd_transforms_. */
 void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const ffwd_real *qdd,
@@ -172,15 +172,12 @@ typedef uint64_t ffwd_bits_;
 #define FFWD_EXP_ONE_  0x00800000u
 #define FFWD_TOP_BIT_  31u
 /* joint positions must satisfy |q| < FFWD_Q_MAX_ (2^14 rad or m in float, 2^20 in
- * double, where sin/cos keep their accuracy): the exponent field plus FFWD_Q_BIG_
- * carries into the sign bit exactly when |q| >= FFWD_Q_MAX_ or q is not finite */
-#define FFWD_Q_BIG_    ((uint32_t)(256 - (127 + 14)) << 23)
+ * double, where sin/cos keep their accuracy; ffwd_trig_, ffwd_enter_) */
 #define FFWD_Q_MAX_    16384.0f
 #else
 #define FFWD_EXP_MASK_ 0x7ff0000000000000u
 #define FFWD_EXP_ONE_  0x0010000000000000u
 #define FFWD_TOP_BIT_  63u
-#define FFWD_Q_BIG_    ((uint64_t)(2048 - (1023 + 20)) << 52)
 #define FFWD_Q_MAX_    1048576.0
 #endif
 
@@ -198,26 +195,25 @@ static inline int finite_bits(ffwd_bits_ acc)
     return ((acc >> FFWD_TOP_BIT_) & 1u) == 0u;
 }
 
-/* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, the
- * joint positions a finite with |a[i]| < FFWD_Q_MAX_ (sin/cos are exact to 2 ulp far
- * beyond any real joint angle, but not for any double), and the inputs b, c (when not
- * NULL) finite, over dof entries. When it fails the caller
- * runs ffwd_enter_, which finds the reason and zeroes the outputs. */
-/* The first part of ffwd_ready_ (m, w, a non-null, bound, dof in range), for a function
- * whose ffwd_trig_ call tests the joint positions a (see ffwd_trig_). */
-static inline int ffwd_ready_head_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a)
-{
-    return m != NULL && w != NULL && a != NULL && w->model == m && w->stamp == ffwd_stamp_of_(m)
-        && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF;
-}
-
-static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a,
+/* Fast entry check of a per-cycle function: m, w, q non-null, bound, dof in range, and
+ * the inputs b, c (when not NULL) finite, over dof entries. The joint positions q are
+ * tested by the ffwd_trig_ call that reads them (directly or through ffwd_transforms_):
+ * a per-cycle function proceeds when both pass,
+ *   if (!(outputs non-null && ffwd_ready_(m, w, q, b, c) && ffwd_trig_(m, w, q))) {
+ *       st = ffwd_enter_(...); if (st != FFWD_OK) return st;  (finds the reason, zeroes
+ *       (void)ffwd_trig_(m, w, q);                              the outputs)
+ *   }
+ * and needs no other trig call. */
+static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *q,
                               const ffwd_real *b, const ffwd_real *c)
 {
     uint32_t i, n;
     uint64_t acc = 0u;
-    if (!ffwd_ready_head_(m, w, a))
+    if (!(m != NULL && w != NULL && q != NULL && w->model == m && w->stamp == ffwd_stamp_of_(m)
+          && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF))
         return 0;
+    if (b == NULL && c == NULL)
+        return 1;
     n = m->dof;
     for (i = 0; i < n; i++) {
 #ifdef FFWD_SINGLE
@@ -225,8 +221,6 @@ static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffw
 #else
         uint64_t u;
 #endif
-        memcpy(&u, a + i, sizeof u);
-        acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_Q_BIG_);
         if (b != NULL) {
             memcpy(&u, b + i, sizeof u);
             acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);
