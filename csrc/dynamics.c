@@ -298,8 +298,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
         const ffwd_real *K = KONST(w, i);
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
-        const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
+        const ffwd_real c = cb[i], s = sb[i];
+        ffwd_real dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
@@ -353,6 +353,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
         }
+        dq = qd[i];
+        ddq = qdd[i];
         if (rev) {
             /* wd += w x e_z dq + e_z ddq; w += e_z dq */
             d0 += w1 * dq; d1 -= w0 * dq; d2 += ddq;
