@@ -298,8 +298,7 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
         const ffwd_real *K = KONST(w, i);
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
-        const ffwd_real c = cb[i], s = sb[i];
-        ffwd_real dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
+        ffwd_real c, s, dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
@@ -309,6 +308,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
             x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
             x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
+            c = cb[i];
+            s = sb[i];
             switch (kind) {
             case FFWD_KIND_I:
                 RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
@@ -349,6 +350,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
         } else {
             /* base parent: no velocity, acceleration -g */
             ffwd_real u0, u1, u2;
+            c = cb[i];
+            s = sb[i];
             E0T(kind, K, -g[0], -g[1], -g[2], u0, u1, u2);
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
