@@ -459,6 +459,8 @@ void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
     uint32_t i;
     ffwd_real M = FR(0);
     const ffwd_real *pc = NULL;
+    for (i = 0; i < 4u; i++)
+        w->scratch[FFWD_OFF_SUBKEY + i] = BODY_TH(w, m->tool_parent)[i];
     if (w->scratch[FFWD_OFF_CHAIN] == FR(0))
         return;
     for (i = m->dof; i-- > 0u;) {
@@ -485,15 +487,14 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
         /* serial chain (spatial.h FFWD_OFF_CHAIN): the parent's g stays in registers
          * going out. Coming back, the subtree's mass and the constant part of its first
-         * moment are the subtree constants (FFWD_OFF_SUB); only their rotation (and the
-         * slide of a prismatic joint) is left per call. Joint 0 has no parent to pass its
-         * subtree to. */
+         * moment are the subtree constants (FFWD_OFF_SUB, payload included: kept up to
+         * date by ffwd_fill_tool_body_ and ffwd_load_tool_body_); only their rotation
+         * (and the slide of a prismatic joint) is left per call. Joint 0 has no parent to
+         * pass its subtree to. */
         const uint32_t n = m->dof;
         const ffwd_real *K = KONST(w, 0), *S;
         ffwd_real *B = BODY(w, 0);
         ffwd_real g0, g1, g2, u0, u1, u2, c0 = FR(0), c1 = FR(0), c2 = FR(0);
-        if (w->payload != NULL)
-            ffwd_subtree_(m, w); /* the box's payload is in K(tool_parent) now */
         g0 = m->gravity[0]; g1 = m->gravity[1]; g2 = m->gravity[2];
         for (i = 0; i < n; i++) {
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);

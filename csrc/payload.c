@@ -56,8 +56,9 @@ void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
 }
 
 /* Body tool_parent plus the payload of w's box (see spatial.h): the box's payload is
- * copied under the hold, then rotated. Without a box K(tool_parent) already holds the
- * body with the model's payload (ffwd_fill_tool_body_). */
+ * copied under the hold, then rotated; the subtree constants follow where its mass or
+ * first moment changed. Without a box K(tool_parent) already holds the body with the
+ * model's payload (ffwd_fill_tool_body_). */
 void ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
     ffwd_payload_box *box = w->payload;
@@ -83,6 +84,13 @@ void ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
     }
     params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
     tool_body_set(m, w, rot);
+    {
+        /* the subtree constants again where mass or first moment changed */
+        const ffwd_real *th = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
+        const ffwd_real *key = w->scratch + FFWD_OFF_SUBKEY;
+        if ((th[0] != key[0]) | (th[1] != key[1]) | (th[2] != key[2]) | (th[3] != key[3]))
+            ffwd_subtree_(m, w);
+    }
 }
 
 ffwd_status ffwd_payload_init(ffwd_payload_box *box, const ffwd_model *m)

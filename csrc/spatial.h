@@ -67,6 +67,9 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
  * reads any body's parameters from K(i) alike. */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
+/* mass and first moment (4) of body tool_parent, payload included, that the subtree
+ * constants (FFWD_OFF_SUB) were last computed with (ffwd_subtree_) */
+#define FFWD_OFF_SUBKEY (FFWD_OFF_TMP + 6)
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -92,7 +95,7 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 #define FFWD_LAYOUT_END (FFWD_OFF_SUB + FFWD_SUB_STRIDE * FFWD_MAX_DOF)
 
 typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
-typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
+typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64 && FFWD_OFF_SUBKEY + 4 <= FFWD_OFF_ATP) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
@@ -117,9 +120,10 @@ static inline void ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
  * (payload.c); done by ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else
  * writes them while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
-/* The subtree constants (FFWD_OFF_SUB) of a chain from K (dynamics.c); nothing for a
- * model that is not one. Done with ffwd_fill_tool_body_; with a payload box, by the
- * function that reads them. */
+/* The subtree constants (FFWD_OFF_SUB) of a chain from K (dynamics.c; nothing for a
+ * model that is not one) and their key (FFWD_OFF_SUBKEY). Done with
+ * ffwd_fill_tool_body_, and by ffwd_load_tool_body_ where the box's payload changed the
+ * key (nothing else they depend on changes after ffwd_work_init). */
 void ffwd_subtree_(const ffwd_model *m, ffwd_work *w);
 /* payload parameters all zero or a physically valid body (model.c). */
 int ffwd_payload_params_ok_(const ffwd_real *th);
