@@ -25,29 +25,38 @@
 #define TRIG_C(w) ((w)->scratch + FFWD_OFF_TRIG + 2 * FFWD_TRIG_STRIDE)
 
 /* sin, cos of theta = q + alpha (revolute) or alpha (prismatic) of every joint, two at a
- * time; p = p' + q E0 e_z of every prismatic joint */
-void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
+ * time; p = p' + q E0 e_z of every prismatic joint. The sum of q^2 rides along: the
+ * entry test of q (spatial.h) at two products and sums per joint. */
+int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     ffwd_real *qb = TRIG_Q(w);
     const ffwd_real *al = w->scratch + FFWD_OFF_ALPHA, *rv = al + FFWD_MAX_DOF;
     const uint32_t n = m->dof;
     uint32_t i;
+    ffwd_real ss0 = FR(0), ss1 = FR(0);
 #ifdef FFWD_SINGLE
     /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
      * sin/cos of q, then the offset by the angle-sum formulas below */
     (void)al;
-    for (i = 0; i < n; i++)
+    for (i = 0; i < n; i++) {
         qb[i] = rv[i] * q[i];
+        ss0 += q[i] * q[i];
+    }
 #else
     /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
      * time (one vector instruction each where the target has two-lane vectors) */
     for (i = 0; i + 1u < n; i += 2u) {
-        const ffwd_real x0 = rv[i] * q[i] + al[i], x1 = rv[i + 1u] * q[i + 1u] + al[i + 1u];
-        qb[i] = x0;
-        qb[i + 1u] = x1;
+        const ffwd_real q0 = q[i], q1 = q[i + 1u];
+        qb[i] = rv[i] * q0 + al[i];
+        qb[i + 1u] = rv[i + 1u] * q1 + al[i + 1u];
+        ss0 += q0 * q0;
+        ss1 += q1 * q1;
     }
-    if (n & 1u)
-        qb[n - 1u] = rv[n - 1u] * q[n - 1u] + al[n - 1u];
+    if (n & 1u) {
+        const ffwd_real q0 = q[n - 1u];
+        qb[n - 1u] = rv[n - 1u] * q0 + al[n - 1u];
+        ss0 += q0 * q0;
+    }
 #endif
     qb[n] = FR(0);
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
@@ -71,15 +80,15 @@ void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
         *cp = cq * ca - sq * sa;
     }
 #endif
+    return ss0 + ss1 < FFWD_Q_MAX_ * FFWD_Q_MAX_;
 }
 
 /* R = E0 Rz(theta) and p of every body */
-void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
+int ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
-    int r;
-    ffwd_trig_(m, w, q);
+    int r, ok = ffwd_trig_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         const ffwd_real *K = KONST(w, i), *E = K + FFWD_K_E;
         const ffwd_real s = sb[i], c = cb[i];
@@ -93,20 +102,13 @@ void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
             R[9] = K[FFWD_K_P]; R[10] = K[FFWD_K_P + 1]; R[11] = K[FFWD_K_P + 2];
         }
     }
+    return ok;
 }
 
-/* body parameters in the aligned frame (payload lumped into tool_parent) */
-static const ffwd_real *body_params(const ffwd_model *m, const ffwd_work *w, const ffwd_real *tp, uint32_t i)
-{
-    return (int32_t)i == m->tool_parent ? tp : KONST(w, i) + FFWD_K_TH;
-}
-
-/* second moment J of body i (tool_parent: of the body with payload, kept beside it by
- * ffwd_load_tool_body_) */
-static const ffwd_real *body_second_moment(const ffwd_model *m, const ffwd_work *w, uint32_t i)
-{
-    return (int32_t)i == m->tool_parent ? w->scratch + FFWD_OFF_TPJ : KONST(w, i) + FFWD_K_J;
-}
+/* body parameters th' and second moment J of body i in the aligned frame (the payload
+ * lumped into body tool_parent, spatial.h FFWD_OFF_TP) */
+#define BODY_TH(w, i) (KONST(w, i) + FFWD_K_TH)
+#define BODY_J(w, i) (KONST(w, i) + FFWD_K_J)
 
 /* S . F for joint J (F a spatial force; S = e_z in the aligned frame) */
 static ffwd_real s_dot(const ffwd_joint *J, const ffwd_real *F)
@@ -189,6 +191,14 @@ void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const
 #define RZ(c, s, u0, u1, u2, o0, o1, o2) do { \
     (o0) = (c) * (u0) - (s) * (u1); (o1) = (s) * (u0) + (c) * (u1); (o2) = (u2); } while (0)
 
+/* joint K's type (FFWD_REVOLUTE or FFWD_PRISMATIC), kept beside its constants */
+static int joint_type(const ffwd_real *K)
+{
+    int32_t t;
+    memcpy(&t, K + FFWD_K_TYPE, sizeof t);
+    return (int)t;
+}
+
 /* the kind of joint K's fixed rotation E0 */
 static int e0_kind(const ffwd_real *K)
 {
@@ -211,13 +221,14 @@ static int e0_kind(const ffwd_real *K)
 #endif
 
 /* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
- * and J(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial vector of Om J - (Om J)^T into 27.
+ * and J(l) (in K(l)): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial
+ * vector of Om J - (Om J)^T into 27.
  * The bodies are independent, so every line is the same operation on each lane (one
  * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
  * of the code, with its own registers. */
-static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *t0,
-                                      const ffwd_real *t1, const ffwd_real *J0, const ffwd_real *J1)
+static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *K0, const ffwd_real *K1)
 {
+    const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
     ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
     ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
     ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
@@ -275,7 +286,7 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
  * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
-static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const ffwd_real *qd,
+static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
     ffwd_bits_ acc = 0u;
@@ -287,8 +298,7 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         const ffwd_real *K = KONST(w, i);
         ffwd_real *B = BODY(w, i);
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
-        const ffwd_real dq = qd[i], ddq = qdd[i], c = cb[i], s = sb[i];
-        ffwd_real w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
+        ffwd_real c, s, dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
@@ -298,6 +308,8 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
             x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
             x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
             x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
+            c = cb[i];
+            s = sb[i];
             switch (kind) {
             case FFWD_KIND_I:
                 RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
@@ -338,10 +350,14 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         } else {
             /* base parent: no velocity, acceleration -g */
             ffwd_real u0, u1, u2;
+            c = cb[i];
+            s = sb[i];
             E0T(kind, K, -g[0], -g[1], -g[2], u0, u1, u2);
             RZT(c, s, u0, u1, u2, a0, a1, a2);
             w0 = w1 = w2 = d0 = d1 = d2 = FR(0);
         }
+        dq = qd[i];
+        ddq = qdd[i];
         if (rev) {
             /* wd += w x e_z dq + e_z ddq; w += e_z dq */
             d0 += w1 * dq; d1 -= w0 * dq; d2 += ddq;
@@ -353,10 +369,18 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, const
         B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
         B[18] = a0; B[19] = a1; B[20] = a2;
     }
-    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
-        const uint32_t j = FORCE_LANES > 1 && i + 1u < n ? i + 1u : i;
-        body_forces(BODY(w, i), BODY(w, j), body_params(m, w, tp, i), body_params(m, w, tp, j),
-                     body_second_moment(m, w, i), body_second_moment(m, w, j));
+    {
+        /* FORCE_LANES bodies at a time; an odd last body twice (lanes of the same body) */
+        ffwd_real *B = BODY(w, 0);
+        const ffwd_real *K = KONST(w, 0);
+        const uint32_t k = FORCE_LANES > 1 ? 1u : 0u;
+        for (i = 0; i + k < n; i += (uint32_t)FORCE_LANES) {
+            body_forces(B, B + k * FFWD_B_STRIDE, K, K + k * FFWD_K_STRIDE);
+            B += FORCE_LANES * FFWD_B_STRIDE;
+            K += FORCE_LANES * FFWD_K_STRIDE;
+        }
+        if (i < n)
+            body_forces(B, B, K, K);
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
@@ -409,58 +433,102 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const ffwd_real *in[3];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_status st;
     /* qd and qdd are not scanned here: a non-finite qd[i] or qdd[i] makes tau[i]
      * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
      * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
      * tau zeroed, as the entry check would */
-    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
-    tp = ffwd_tool_body_(m, w);
-    ffwd_trig_(m, w, q);
-    if (id_pass(m, w, tp, qd, qdd, m->gravity, tau, 1))
+    ffwd_tool_body_(m, w);
+    if (id_pass(m, w, qd, qdd, m->gravity, tau, 1))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
 }
 
+#define SUB(w, i) ((w)->scratch + FFWD_OFF_SUB + FFWD_SUB_STRIDE * (uint32_t)(i))
+
+void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
+{
+    uint32_t i;
+    ffwd_real M = FR(0);
+    const ffwd_real *pc = NULL;
+    for (i = 0; i < 4u; i++)
+        w->scratch[FFWD_OFF_SUBKEY + i] = BODY_TH(w, m->tool_parent)[i];
+    if (w->scratch[FFWD_OFF_CHAIN] == FR(0))
+        return;
+    for (i = m->dof; i-- > 0u;) {
+        const ffwd_real *th = BODY_TH(w, i);
+        ffwd_real *S = SUB(w, i);
+        S[1] = th[1]; S[2] = th[2]; S[3] = th[3];
+        if (pc != NULL) {
+            S[1] += M * pc[0]; S[2] += M * pc[1]; S[3] += M * pc[2];
+        }
+        M += th[0];
+        S[0] = M;
+        pc = KONST(w, i) + FFWD_K_P;
+    }
+}
+
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
- * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18. */
-static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, ffwd_real *tau)
+ * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
+static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
-        /* serial chain: the parent's g and the child's mass and first moment stay in
-         * registers */
-        ffwd_real g0 = m->gravity[0], g1 = m->gravity[1], g2 = m->gravity[2];
-        ffwd_real Mc = FR(0), c0 = FR(0), c1 = FR(0), c2 = FR(0);
-        for (i = 0; i < m->dof; i++) {
-            const ffwd_real *K = KONST(w, i);
-            ffwd_real *B = BODY(w, i), u0, u1, u2;
+        /* serial chain (spatial.h FFWD_OFF_CHAIN): the parent's g stays in registers
+         * going out. Coming back, the subtree's mass and the constant part of its first
+         * moment are the subtree constants (FFWD_OFF_SUB, payload included: kept up to
+         * date by ffwd_fill_tool_body_ and ffwd_load_tool_body_); only their rotation
+         * (and the slide of a prismatic joint) is left per call. Joint 0 has no parent to
+         * pass its subtree to. */
+        const uint32_t n = m->dof;
+        const ffwd_real *K = KONST(w, 0), *S;
+        ffwd_real *B = BODY(w, 0);
+        ffwd_real g0, g1, g2, u0, u1, u2, c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        g0 = m->gravity[0]; g1 = m->gravity[1]; g2 = m->gravity[2];
+        for (i = 0; i < n; i++) {
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
             RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
             B[12] = g0; B[13] = g1; B[14] = g2;
+            K += FFWD_K_STRIDE;
+            B += FFWD_B_STRIDE;
         }
-        for (i = m->dof; i-- > 0u;) {
-            const ffwd_real *B = BODY(w, i), *th = body_params(m, w, tp, i), *K = KONST(w, i);
-            const int rev = m->joint[i].type == FFWD_REVOLUTE;
-            const ffwd_real M = th[0] + Mc, h0 = th[1] + c0, h1 = th[2] + c1, h2 = th[3] + c2;
-            const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
-            ffwd_real u0, u1, u2;
-            tau[i] = rev ? B[12] * h1 - B[13] * h0 : -M * B[14];
-            acc |= exp_bits(tau[i]);
+        K -= FFWD_K_STRIDE;
+        B -= FFWD_B_STRIDE;
+        S = SUB(w, n - 1u);
+        for (i = n - 1u; i > 0u; i--) {
+            const ffwd_real h0 = S[1] + c0, h1 = S[2] + c1, h2 = S[3] + c2;
+            ffwd_real t;
             RZ(cb[i], sb[i], h0, h1, h2, u0, u1, u2);
+            if (joint_type(K) == FFWD_REVOLUTE) {
+                t = B[12] * h1 - B[13] * h0;
+            } else {
+                /* the slide q e_z of the child's origin (frame i before E0) */
+                t = -S[0] * B[14];
+                u2 += S[0] * q[i];
+            }
+            tau[i] = t;
+            acc |= exp_bits(t);
             E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
-            Mc = M;
-            c0 += M * p[0]; c1 += M * p[1]; c2 += M * p[2];
+            K -= FFWD_K_STRIDE;
+            B -= FFWD_B_STRIDE;
+            S -= FFWD_SUB_STRIDE;
+        }
+        {
+            const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (S[2] + c1) - B[13] * (S[1] + c0)
+                                                                : -S[0] * B[14];
+            tau[0] = t;
+            acc |= exp_bits(t);
         }
         return finite_bits(acc);
     }
@@ -468,7 +536,7 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *tp, 
         ffwd_real *B = BODY(w, i);
         const int32_t par = m->joint[i].parent;
         const ffwd_real *gp = par >= 0 ? BODY(w, par) + 12 : m->gravity;
-        const ffwd_real *th = body_params(m, w, tp, i);
+        const ffwd_real *th = BODY_TH(w, i);
         const ffwd_real *K = KONST(w, i);
         const int kind = e0_kind(K);
         ffwd_real u0, u1, u2;
@@ -506,14 +574,15 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
-    if (!(tau != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; out[0] = tau;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
-    ffwd_trig_(m, w, q);
-    if (gravity_pass(m, w, ffwd_tool_body_(m, w), tau))
+    ffwd_tool_body_(m, w);
+    if (gravity_pass(m, w, q, tau))
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
@@ -527,24 +596,24 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     const ffwd_real *in[3];
     ffwd_real *out[4];
     const int shape[4] = { FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N, FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_real *zn;
     ffwd_status st;
     uint32_t i;
-    if (!(qd != NULL && qdd != NULL && inertial != NULL && velocity != NULL && gravity != NULL && friction != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+    if (!(qd != NULL && qdd != NULL && inertial != NULL && velocity != NULL && gravity != NULL && friction != NULL
+          && ffwd_ready_(m, w, q, qd, qdd) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd;
         out[0] = inertial; out[1] = velocity; out[2] = gravity; out[3] = friction;
         st = ffwd_enter_(m, w, in, 3, out, shape, 4);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_trig_(m, w, q);
     }
-    tp = ffwd_tool_body_(m, w);
-    ffwd_trig_(m, w, q);
+    ffwd_tool_body_(m, w);
     zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
     ffwd_zero_(zn, m->dof);
-    (void)id_pass(m, w, tp, zn, qdd, zero3, inertial, 0);
-    (void)id_pass(m, w, tp, qd, zn, zero3, velocity, 0);
-    (void)gravity_pass(m, w, tp, gravity);
+    (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
+    (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
+    (void)gravity_pass(m, w, q, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);
@@ -564,21 +633,20 @@ ffwd_status ffwd_mass_matrix(const ffwd_model *m, ffwd_work *w, const ffwd_real 
     const ffwd_real *in[1];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_NN };
-    const ffwd_real *tp;
     ffwd_status st;
     uint32_t i, n, k;
-    if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(M != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_transforms_(m, w, q))) {
         in[0] = q; out[0] = M;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
-    tp = ffwd_tool_body_(m, w);
-    ffwd_transforms_(m, w, q);
+    ffwd_tool_body_(m, w);
     ffwd_zero_(M, n * n);
     for (i = 0; i < n; i++) {
-        const ffwd_real *th = body_params(m, w, tp, i);
+        const ffwd_real *th = BODY_TH(w, i);
         ffwd_real *C = AUX(w, i);
         for (k = 0; k < 10u; k++)
             C[k] = th[k];
@@ -697,19 +765,18 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const ffwd_real *in[3];
     ffwd_real *out[1];
     const int shape[1] = { FFWD_SHAPE_N };
-    const ffwd_real *tp;
     ffwd_status st;
     uint32_t i, n;
     int k, ok = 1;
-    if (!(qd != NULL && tau != NULL && qdd != NULL && ffwd_ready_(m, w, q, qd, tau))) {
+    if (!(qd != NULL && tau != NULL && qdd != NULL && ffwd_ready_(m, w, q, qd, tau) && ffwd_transforms_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = tau; out[0] = qdd;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
-    tp = ffwd_tool_body_(m, w);
-    ffwd_transforms_(m, w, q);
+    ffwd_tool_body_(m, w);
     /* pass 1: velocities, bias accelerations c = v x S qd, rigid inertias, bias forces */
     {
         ffwd_real zg[3] = { 0, 0, 0 };
@@ -718,7 +785,7 @@ ffwd_status ffwd_forward_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         ffwd_real *B = BODY(w, i), *X = AUX(w, i), Iv[6];
-        const ffwd_real *th = body_params(m, w, tp, i), *vp;
+        const ffwd_real *th = BODY_TH(w, i), *vp;
         ffwd_real vq[6];
         /* c = a from pass_va (qdd = 0, no gravity) minus the parent's part X a_parent */
         if (J->parent >= 0) {

@@ -6,13 +6,13 @@
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
 #define AUX(w, i) ((w)->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)(i))
 
-/* World pose of every joint frame: AUX(i) = Rw[9] pw[3]; tool pose into Rt, pt. */
-static void world_poses(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *Rt, ffwd_real *pt)
+/* World pose of every joint frame: AUX(i) = Rw[9] pw[3]; tool pose into Rt, pt. Needs
+ * ffwd_transforms_. */
+static void world_poses(const ffwd_model *m, ffwd_work *w, ffwd_real *Rt, ffwd_real *pt)
 {
     uint32_t i;
     const ffwd_real *W;
     ffwd_real t[3];
-    ffwd_transforms_(m, w, q);
     for (i = 0; i < m->dof; i++) {
         ffwd_real *B = BODY(w, i), *A = AUX(w, i);
         int32_t par = m->joint[i].parent;
@@ -41,13 +41,14 @@ ffwd_status ffwd_tool_pose(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     ffwd_real R[9], p[3];
     ffwd_status st;
     int r;
-    if (!(T != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(T != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_transforms_(m, w, q))) {
         in[0] = q; out[0] = T;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
-    world_poses(m, w, q, R, p);
+    world_poses(m, w, R, p);
     for (r = 0; r < 3; r++) {
         T[4 * r] = R[3 * r]; T[4 * r + 1] = R[3 * r + 1]; T[4 * r + 2] = R[3 * r + 2];
         T[4 * r + 3] = p[r];
@@ -66,14 +67,15 @@ ffwd_status ffwd_tool_jacobian(const ffwd_model *m, ffwd_work *w, const ffwd_rea
     ffwd_status st;
     uint32_t n, step;
     int32_t j;
-    if (!(J != NULL && ffwd_ready_(m, w, q, NULL, NULL))) {
+    if (!(J != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_transforms_(m, w, q))) {
         in[0] = q; out[0] = J;
         st = ffwd_enter_(m, w, in, 1, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
-    world_poses(m, w, q, R, p);
+    world_poses(m, w, R, p);
     ffwd_zero_(J, 6u * n);
     j = m->tool_parent;
     for (step = 0; step < n && j >= 0; step++) {

@@ -376,7 +376,8 @@ static void turn_for_child(ffwd_real *A, const ffwd_joint *Jc, const ffwd_real *
 
 /* Aligned constants of joint J (see spatial.h): Ap = A of the parent (NULL: base), A its
  * own; E = Ap^T rot A is split into E0 Rz(alpha), E0 snapped to Rx(beta) where it is one. */
-static void cache_joint(const ffwd_joint *J, const ffwd_real *Ap, const ffwd_real *A, ffwd_real *K)
+static void cache_joint(const ffwd_joint *J, const ffwd_real *Ap, const ffwd_real *A, ffwd_real *K,
+                        ffwd_real *alpha)
 {
     ffwd_real RA[9], E[9], ca = FR(1), sa = FR(0), *E0 = K + FFWD_K_E;
     int32_t kind;
@@ -408,7 +409,8 @@ static void cache_joint(const ffwd_joint *J, const ffwd_real *Ap, const ffwd_rea
     }
     K[FFWD_K_CA] = ca;
     K[FFWD_K_SA] = sa;
-    K[FFWD_K_AL] = angle_of(ca, sa);
+    *alpha = angle_of(ca, sa);
+    memcpy(K + FFWD_K_TYPE, &J->type, sizeof J->type); /* int32 bits (see joint_type in dynamics.c) */
     kind = FFWD_KIND_GEN;
     if (absr(E0[0] - FR(1)) <= SPLIT_TOL && absr(E0[1]) <= SPLIT_TOL && absr(E0[2]) <= SPLIT_TOL
         && absr(E0[3]) <= SPLIT_TOL && absr(E0[6]) <= SPLIT_TOL) {
@@ -461,11 +463,10 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
                 break;
             }
         cache_joint(&m->joint[i], par >= 0 ? w->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)par : NULL,
-                    A, w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i);
+                    A, w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * i, w->scratch + FFWD_OFF_ALPHA + i);
     }
     for (i = 0; i < m->dof; i++) {
         const int rev = m->joint[i].type == FFWD_REVOLUTE;
-        w->scratch[FFWD_OFF_ALPHA + i] = w->scratch[FFWD_OFF_K + FFWD_K_STRIDE * i + FFWD_K_AL];
         w->scratch[FFWD_OFF_ALPHA + FFWD_MAX_DOF + i] = rev ? FR(1) : FR(0);
         w->scratch[FFWD_OFF_NPRIS] += rev ? FR(0) : FR(1);
     }
@@ -481,6 +482,8 @@ ffwd_status ffwd_work_init(ffwd_work *w, const ffwd_model *m)
     m3_tmul(Atp, m->tool_pos, tool + 9);
     params_rotate_t(Atp, m->payload, w->scratch + FFWD_OFF_PAY);
     ffwd_zero_(w->scratch + FFWD_OFF_A, (uint32_t)(FFWD_A_STRIDE * FFWD_MAX_DOF));
+    for (r = 0; r < 10; r++) /* the bare body tool_parent, before the payload joins it */
+        w->scratch[FFWD_OFF_TP + r] = w->scratch[FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH + (uint32_t)r];
     ffwd_fill_tool_body_(m, w);
     w->model = m;
     w->stamp = ffwd_stamp_of_(m);

@@ -37,40 +37,36 @@ static uint32_t state_load(ffwd_payload_box *b) { return b->state; }
 static uint32_t state_load(ffwd_payload_box *b) { return atomic_load(&b->state); }
 #endif
 
-/* The TP area for the model's own payload: body tool_parent plus the payload rotated by
- * ffwd_work_init, both in the aligned tool_parent frame. */
-/* the second moment of the TP body beside it (FFWD_OFF_TPJ), one copy of the code */
-static FFWD_NOINLINE void tool_body_moment(ffwd_work *w)
+/* th' and J of K(tool_parent) for body tool_parent (TP area, saved by ffwd_work_init)
+ * plus a payload rotated into the aligned tool_parent frame, one copy of the code */
+static FFWD_NOINLINE void tool_body_set(const ffwd_model *m, ffwd_work *w, const ffwd_real *pay)
 {
-    second_moment(w->scratch + FFWD_OFF_TP, w->scratch + FFWD_OFF_TPJ);
+    const ffwd_real *base = w->scratch + FFWD_OFF_TP;
+    ffwd_real *out = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent;
+    int k;
+    for (k = 0; k < 10; k++)
+        out[FFWD_K_TH + k] = base[k] + pay[k];
+    second_moment(out + FFWD_K_TH, out + FFWD_K_J);
 }
 
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
-    const ffwd_real *base = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
-    const ffwd_real *pay = w->scratch + FFWD_OFF_PAY;
-    ffwd_real *out = w->scratch + FFWD_OFF_TP;
-    int k;
-    for (k = 0; k < 10; k++)
-        out[k] = base[k] + pay[k];
-    tool_body_moment(w);
+    tool_body_set(m, w, w->scratch + FFWD_OFF_PAY);
+    ffwd_subtree_(m, w);
 }
 
-/* Body tool_parent plus the payload, in the aligned tool_parent frame (see spatial.h),
- * and its second moment beside it (FFWD_OFF_TPJ):
- * without a box the TP area already holds it (ffwd_fill_tool_body_); a box's payload is
- * copied under the hold, then rotated. */
-const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
+/* Body tool_parent plus the payload of w's box (see spatial.h): the box's payload is
+ * copied under the hold, then rotated; the subtree constants follow where its mass or
+ * first moment changed. Without a box K(tool_parent) already holds the body with the
+ * model's payload (ffwd_fill_tool_body_). */
+void ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
-    const ffwd_real *base = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
-    ffwd_real *out = w->scratch + FFWD_OFF_TP;
     ffwd_payload_box *box = w->payload;
+    ffwd_real raw[10], rot[10];
     int k;
-    if (box == NULL) {
-        /* filled by ffwd_work_init / ffwd_work_use_payload(w, NULL) (ffwd_fill_tool_body_) */
-        return out;
-    } else {
-        ffwd_real raw[10], rot[10];
+    if (box == NULL)
+        return;
+    {
 #if defined(FFWD_NO_ATOMICS)
         uint32_t idx = box->state & 1u;
         for (k = 0; k < 10; k++)
@@ -85,12 +81,16 @@ const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w)
             nw = ((cur & 1u) == idx) ? cur - HOLD_ACTIVE : cur - HOLD_OTHER;
         } while (!atomic_compare_exchange_weak(&box->state, &cur, nw));
 #endif
-        params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
-        for (k = 0; k < 10; k++)
-            out[k] = base[k] + rot[k];
-        tool_body_moment(w);
     }
-    return out;
+    params_rotate_t(w->scratch + FFWD_OFF_ATP, raw, rot);
+    tool_body_set(m, w, rot);
+    {
+        /* the subtree constants again where mass or first moment changed */
+        const ffwd_real *th = w->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)m->tool_parent + FFWD_K_TH;
+        const ffwd_real *key = w->scratch + FFWD_OFF_SUBKEY;
+        if ((th[0] != key[0]) | (th[1] != key[1]) | (th[2] != key[2]) | (th[3] != key[3]))
+            ffwd_subtree_(m, w);
+    }
 }
 
 ffwd_status ffwd_payload_init(ffwd_payload_box *box, const ffwd_model *m)

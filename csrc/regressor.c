@@ -65,16 +65,16 @@ ffwd_status ffwd_regressor(const ffwd_model *m, ffwd_work *w, const ffwd_real *q
     const int shape[1] = { FFWD_SHAPE_REG };
     ffwd_status st;
     uint32_t n, cols, j, k;
-    if (!(qd != NULL && qdd != NULL && Y != NULL && ffwd_ready_(m, w, q, qd, qdd))) {
+    if (!(qd != NULL && qdd != NULL && Y != NULL && ffwd_ready_(m, w, q, qd, qdd) && ffwd_transforms_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = Y;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
         if (st != FFWD_OK)
             return st;
+        (void)ffwd_transforms_(m, w, q);
     }
     n = m->dof;
     cols = 13u * n;
     ffwd_zero_(Y, n * cols);
-    ffwd_transforms_(m, w, q);
     ffwd_pass_va_(m, w, qd, qdd, m->gravity);
     /* per body: A_k = rot_k^T A_parent E_k (E_k = E0_k Rz(alpha_k)), and v, a in the original frame */
     for (k = 0; k < n; k++) {

@@ -43,7 +43,7 @@
  * vector), or a general rotation (9; base children, second children in a tree).
  * Body parameters are rotated at init (m, A^T h, A^T I A), and the body's second moment
  * J = sum m r r^T = tr(I)/2 1 - I kept beside them. Per joint K(i):
- *   E0[9] p'[3] th'[10] cos alpha, sin alpha, kind (int32 bits), alpha, J[6] */
+ *   E0[9] p'[3] th'[10] cos alpha, sin alpha, kind (int32 bits), joint type (int32 bits), J[6] */
 #define FFWD_K_STRIDE 32
 #define FFWD_OFF_K      0
 #define FFWD_K_E  0
@@ -52,7 +52,7 @@
 #define FFWD_K_CA 22
 #define FFWD_K_SA 23
 #define FFWD_K_KIND 24
-#define FFWD_K_AL 25
+#define FFWD_K_TYPE 25
 #define FFWD_K_J 26
 enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, FFWD_KIND_GEN = 4 };
 /* per-call per-body state: Rt[9] p[3] then 18 numbers (meaning depends on the function) */
@@ -61,11 +61,15 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 /* composite inertia (10) / articulated body data (47) per body */
 #define FFWD_A_STRIDE 48
 #define FFWD_OFF_A      (FFWD_OFF_B + FFWD_B_STRIDE * FFWD_MAX_DOF)
-/* effective payload-lumped parameters of the tool_parent body (aligned frame), and a temp */
+/* the parameters of the tool_parent body without payload (aligned frame), and a temp.
+ * The body parameters th' and J in K(tool_parent) are those of the body with the active
+ * payload lumped in (ffwd_fill_tool_body_, ffwd_load_tool_body_), so that every pass
+ * reads any body's parameters from K(i) alike. */
 #define FFWD_OFF_TP     (FFWD_OFF_A + FFWD_A_STRIDE * FFWD_MAX_DOF)
 #define FFWD_OFF_TMP    (FFWD_OFF_TP + 10)
-/* the second moment J (6, spatial.h second_moment) of the TP body, kept beside it */
-#define FFWD_OFF_TPJ    FFWD_OFF_TMP
+/* mass and first moment (4) of body tool_parent, payload included, that the subtree
+ * constants (FFWD_OFF_SUB) were last computed with (ffwd_subtree_) */
+#define FFWD_OFF_SUBKEY (FFWD_OFF_TMP + 6)
 /* model constants cached by ffwd_work_init in the temp area: A of tool_parent (9), the tool
  * frame in the aligned tool_parent frame (rot 9, pos 3), the model's payload in the aligned
  * tool_parent frame (10) */
@@ -83,10 +87,15 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 #define FFWD_OFF_NPRIS  (FFWD_OFF_ALPHA + 2 * FFWD_MAX_DOF)
 /* 1 when the model is a serial chain (parent of joint i is i - 1) */
 #define FFWD_OFF_CHAIN  (FFWD_OFF_NPRIS + 1)
-#define FFWD_LAYOUT_END (FFWD_OFF_CHAIN + 1)
+/* subtree constants of a chain (where FFWD_OFF_CHAIN is set; ffwd_subtree_): per joint i
+ * the mass M_i of bodies i..n-1 and the first moment h'_i + M_(i+1) p'_(i+1) (aligned
+ * frame i; the constant part of the child's origin) */
+#define FFWD_SUB_STRIDE 4
+#define FFWD_OFF_SUB    (FFWD_OFF_CHAIN + 1)
+#define FFWD_LAYOUT_END (FFWD_OFF_SUB + FFWD_SUB_STRIDE * FFWD_MAX_DOF)
 
 typedef char ffwd_kind_fits[(sizeof(ffwd_real) >= sizeof(int32_t)) ? 1 : -1];
-typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64) ? 1 : -1];
+typedef char ffwd_cache_fits[(FFWD_OFF_PAY + 10 <= FFWD_OFF_TMP + 64 && FFWD_OFF_SUBKEY + 4 <= FFWD_OFF_ATP) ? 1 : -1];
 typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 
 /* ---- internal functions shared between the core's files -------------------------- */
@@ -98,19 +107,24 @@ void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t
 int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
 int ffwd_finite_(const ffwd_real *x, uint32_t n);
-/* Fills w's TP area with the body parameters of m->tool_parent plus the active payload
- * (and their second moment at FFWD_OFF_TPJ) and returns a pointer to it (payload.c;
- * readers never wait). */
-const ffwd_real *ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
-/* The same without a call where no payload box is in use (the TP area is filled then) */
-static inline const ffwd_real *ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
+/* Sets th' and J of K(m->tool_parent) to body tool_parent (TP area) plus the payload
+ * of w's box (payload.c; readers never wait). */
+void ffwd_load_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* The same, no call where no payload box is in use (K(tool_parent) is filled then) */
+static inline void ffwd_tool_body_(const ffwd_model *m, ffwd_work *w)
 {
-    return w->payload == NULL ? w->scratch + FFWD_OFF_TP : ffwd_load_tool_body_(m, w);
+    if (w->payload != NULL)
+        ffwd_load_tool_body_(m, w);
 }
-/* Fills w's TP area (and TPJ) with body tool_parent plus the model's payload (payload.c); done by
- * ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else writes the TP area
- * while no box is in use. */
+/* Sets th' and J of K(m->tool_parent) to body tool_parent plus the model's payload
+ * (payload.c); done by ffwd_work_init and ffwd_work_use_payload(w, NULL): nothing else
+ * writes them while no box is in use. */
 void ffwd_fill_tool_body_(const ffwd_model *m, ffwd_work *w);
+/* The subtree constants (FFWD_OFF_SUB) of a chain from K (dynamics.c; nothing for a
+ * model that is not one) and their key (FFWD_OFF_SUBKEY). Done with
+ * ffwd_fill_tool_body_, and by ffwd_load_tool_body_ where the box's payload changed the
+ * key (nothing else they depend on changes after ffwd_work_init). */
+void ffwd_subtree_(const ffwd_model *m, ffwd_work *w);
 /* payload parameters all zero or a physically valid body (model.c). */
 int ffwd_payload_params_ok_(const ffwd_real *th);
 /* Entry checks shared by the per-cycle functions (model.c). in: nin input vectors of
@@ -121,11 +135,14 @@ enum { FFWD_SHAPE_N = 0, FFWD_SHAPE_NN = 1, FFWD_SHAPE_44 = 2, FFWD_SHAPE_6N = 3
 ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *const *in, int nin,
                         ffwd_real *const *out, const int *shape, int nout);
 /* sin theta, cos theta (theta = q + alpha, or alpha for a prismatic joint) into the trig
- * area, and p of every prismatic body into B(i) + 9 (dynamics.c). */
-void ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+ * area, and p of every prismatic body into B(i) + 9 (dynamics.c). Returns 1 when the sum
+ * of q[i]^2 is below FFWD_Q_MAX_^2 (so every q[i] is finite with |q[i]| < FFWD_Q_MAX_;
+ * NaN and Inf fail), else 0: the caller then runs ffwd_enter_, which tests the q[i] one
+ * by one, and calls ffwd_trig_ again if none fails (see ffwd_ready_). */
+int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Full R = E0 Rz(theta), p of every body (aligned frames) into the work's body area
- * (dynamics.c); calls ffwd_trig_. */
-void ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+ * (dynamics.c); calls ffwd_trig_ and returns what it returns. */
+int ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
 /* Forward pass of spatial velocity and acceleration of every body (aligned frames), base
  * acceleration -g; qd or qdd NULL means zero (dynamics.c). Needs ffwd_transforms_. */
 void ffwd_pass_va_(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd, const ffwd_real *qdd,
@@ -159,15 +176,12 @@ typedef uint64_t ffwd_bits_;
 #define FFWD_EXP_ONE_  0x00800000u
 #define FFWD_TOP_BIT_  31u
 /* joint positions must satisfy |q| < FFWD_Q_MAX_ (2^14 rad or m in float, 2^20 in
- * double, where sin/cos keep their accuracy): the exponent field plus FFWD_Q_BIG_
- * carries into the sign bit exactly when |q| >= FFWD_Q_MAX_ or q is not finite */
-#define FFWD_Q_BIG_    ((uint32_t)(256 - (127 + 14)) << 23)
+ * double, where sin/cos keep their accuracy; ffwd_trig_, ffwd_enter_) */
 #define FFWD_Q_MAX_    16384.0f
 #else
 #define FFWD_EXP_MASK_ 0x7ff0000000000000u
 #define FFWD_EXP_ONE_  0x0010000000000000u
 #define FFWD_TOP_BIT_  63u
-#define FFWD_Q_BIG_    ((uint64_t)(2048 - (1023 + 20)) << 52)
 #define FFWD_Q_MAX_    1048576.0
 #endif
 
@@ -185,29 +199,32 @@ static inline int finite_bits(ffwd_bits_ acc)
     return ((acc >> FFWD_TOP_BIT_) & 1u) == 0u;
 }
 
-/* Fast entry check of a per-cycle function: m, w non-null, bound, dof in range, the
- * joint positions a finite with |a[i]| < FFWD_Q_MAX_ (sin/cos are exact to 2 ulp far
- * beyond any real joint angle, but not for any double), and the inputs b, c (when not
- * NULL) finite, over dof entries. When it fails the caller
- * runs ffwd_enter_, which finds the reason and zeroes the outputs. */
-static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *a,
+/* Fast entry check of a per-cycle function: m, w, q non-null, bound, dof in range, and
+ * the inputs b, c (when not NULL) finite, over dof entries. The joint positions q are
+ * tested by the ffwd_trig_ call that reads them (directly or through ffwd_transforms_):
+ * a per-cycle function proceeds when both pass,
+ *   if (!(outputs non-null && ffwd_ready_(m, w, q, b, c) && ffwd_trig_(m, w, q))) {
+ *       st = ffwd_enter_(...); if (st != FFWD_OK) return st;  (finds the reason, zeroes
+ *       (void)ffwd_trig_(m, w, q);                              the outputs)
+ *   }
+ * and needs no other trig call. */
+static inline int ffwd_ready_(const ffwd_model *m, const ffwd_work *w, const ffwd_real *q,
                               const ffwd_real *b, const ffwd_real *c)
 {
     uint32_t i, n;
     uint64_t acc = 0u;
-    if (m == NULL || w == NULL || a == NULL || w->model != m || w->stamp != ffwd_stamp_of_(m))
+    if (!(m != NULL && w != NULL && q != NULL && w->model == m && w->stamp == ffwd_stamp_of_(m)
+          && m->dof >= 1u && m->dof <= (uint32_t)FFWD_MAX_DOF))
         return 0;
+    if (b == NULL && c == NULL)
+        return 1;
     n = m->dof;
-    if (n < 1u || n > (uint32_t)FFWD_MAX_DOF)
-        return 0;
     for (i = 0; i < n; i++) {
 #ifdef FFWD_SINGLE
         uint32_t u;
 #else
         uint64_t u;
 #endif
-        memcpy(&u, a + i, sizeof u);
-        acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_Q_BIG_);
         if (b != NULL) {
             memcpy(&u, b + i, sizeof u);
             acc |= (uint64_t)((u & FFWD_EXP_MASK_) + FFWD_EXP_ONE_);

@@ -97,9 +97,9 @@ typedef struct ffwd_payload_box {
 } ffwd_payload_box;
 
 /* scratch: per joint 32 cached constants, 30 per-call body state, 48 composite /
- * articulated-body data, 5 for the joint angles; plus the payload-lumped tool body, cached
- * tool and payload constants and temporaries (they keep the stack small) */
-#define FFWD_WORK_REALS (FFWD_MAX_DOF * 116 + 176)
+ * articulated-body data, 5 for the joint angles, 4 subtree constants; plus the tool body,
+ * cached tool and payload constants and temporaries (they keep the stack small) */
+#define FFWD_WORK_REALS (FFWD_MAX_DOF * 120 + 176)
 
 typedef struct ffwd_work {
     const ffwd_model *model;        /* the model this work was checked against */

@@ -174,6 +174,24 @@ static void test_args(void)
         q[1] = inside;
         CHECK(ffwd_inverse_dynamics(&m, &w, q, qd, qdd, tau) == FFWD_OK && !all_zero(tau, N6), "id large q");
         for (i = 0; i < N6; i++) CHECK(tau[i] == tau[i] && tau[i] - tau[i] == 0, "id large q finite");
+        /* two such positions: each inside the range, the sum of squares (the quick test
+         * in ffwd_trig_) beyond it: still accepted, the same torques as torque_parts
+         * (which tests its inputs one by one) */
+        {
+            ffwd_real keep0 = q[0], t2[N6], s2 = 0;
+            q[0] = inside;
+            CHECK(ffwd_inverse_dynamics(&m, &w, q, qd, qdd, tau) == FFWD_OK, "id two large q");
+            CHECK(ffwd_torque_parts(&m, &w, q, qd, qdd, p1, p2, p3, p4) == FFWD_OK, "parts two large q");
+            CHECK(ffwd_gravity_torque(&m, &w, q, t2) == FFWD_OK, "gravity two large q");
+            for (i = 0; i < N6; i++) {
+                double sum = (double)p1[i] + (double)p2[i] + (double)p3[i] + (double)p4[i];
+                CHECK(t2[i] == p3[i], "gravity two large q: %g vs %g", (double)t2[i], (double)p3[i]);
+                CHECK(fabs((double)tau[i] - sum) <= TOL_REL * 10 * (1 + fabs(sum)), "id two large q: %g vs %g", (double)tau[i], sum);
+                s2 += p3[i] * p3[i];
+            }
+            CHECK(s2 > 0, "gravity two large q all zero");
+            q[0] = keep0;
+        }
         q[1] = keep;
     }
     /* finite inputs whose torques overflow: E_NONFINITE and zero outputs, never Inf */

@@ -15,7 +15,7 @@ int main(void)
     ffwd_model m, m2;
     static ffwd_work w, w2;
     ffwd_payload_box box;
-    ffwd_real q[N], qd[N], qdd[N], t0[N], t1[N], t2[N];
+    ffwd_real q[N], qd[N], qdd[N], t0[N], t1[N], t2[N], g1[N], g2[N];
     const ffwd_real com[3] = { (ffwd_real)0.02, (ffwd_real)-0.01, (ffwd_real)0.08 };
     const ffwd_real I[6] = { (ffwd_real)0.01, (ffwd_real)0.001, (ffwd_real)-0.002, (ffwd_real)0.012, (ffwd_real)0.0005,
                              (ffwd_real)0.009 };
@@ -56,6 +56,10 @@ int main(void)
     CHECK(ffwd_work_init(&w2, &m2) == FFWD_OK, "model with payload rejected");
     CHECK(ffwd_inverse_dynamics(&m2, &w2, q, qd, qdd, t2) == FFWD_OK, "id2");
     CHECK(max_diff(t1, t2, N) < TOL_REL * 100 * (1 + max_abs(t1, N)), "box payload vs built-in payload: %g", max_diff(t1, t2, N));
+    /* the same for gravity (its chain path keeps subtree constants that the box changes) */
+    CHECK(ffwd_gravity_torque(&m, &w, q, g1) == FFWD_OK, "gravity with payload");
+    CHECK(ffwd_gravity_torque(&m2, &w2, q, g2) == FFWD_OK, "gravity2");
+    CHECK(max_diff(g1, g2, N) < TOL_REL * 100 * (1 + max_abs(g1, N)), "gravity: box payload vs built-in payload: %g", max_diff(g1, g2, N));
     /* refused payloads leave the active one */
     CHECK(ffwd_payload_set(&box, &m, (ffwd_real)-1, com, I) == FFWD_E_ARG, "negative mass accepted");
     CHECK(ffwd_payload_set(&box, &m, (ffwd_real)1, com, Ibad) == FFWD_E_ARG, "triangle-violating inertia accepted");
