@@ -13,6 +13,7 @@ library's own numbers, so a header that does not match the binary is refused.
 """
 from __future__ import annotations
 
+import functools
 import importlib.util
 import os
 import re
@@ -270,14 +271,30 @@ _FUNCTIONS = {
 }
 
 
+def _bytes_inputs(ffi, func, k):
+    """C function `func` (model, work, k input arrays, outputs) called through a pointer
+    type that declares its k inputs char *, so that a bytes object can be passed for each:
+    cffi then passes a pointer to the object's own data (no copy, nothing wrapped). Every
+    pointer argument is handed to libffi as the same pointer type, so this is the same
+    machine call as through the declared type. (CPython keeps the data of a bytes object
+    at a multiple of 8 bytes, the alignment of double.)"""
+    T = ffi.typeof(func)
+    real_p = ffi.typeof("ffwd_real *")
+    if T.kind != "function" or len(T.args) < 2 + k or any(a != real_p for a in T.args[2:2 + k]):
+        raise NativeError(f"{T.cname}: expected (model, work, {k} ffwd_real * inputs, outputs)")
+    args = [a.cname for a in T.args]
+    args[2:2 + k] = ["char *"] * k
+    return ffi.cast(f"{T.result.cname}(*)({', '.join(args)})", func)
+
+
 class NativeModel:
     """ffwd_model + ffwd_work + ffwd_payload_box in cffi memory.
 
-    A single sample is copied into input buffers that stay wrapped for cffi, the C
-    function writes into a cached output buffer, and a copy of that is returned: one C
-    call and no ffi object made per call. A batch is one ffi.from_buffer per array and a
-    Python loop of C calls over pointers into them. Calls on one model take turns (a lock:
-    they share the work area and the buffers)."""
+    A single sample reaches C as one bytes object per input (no buffer shared between
+    calls), the C function writes into a cached output buffer, and a copy of that is
+    returned: one C call and no ffi object made per call. A batch is one ffi.from_buffer
+    per array and a Python loop of C calls over pointers into them. Calls on one model
+    take turns (a lock: they share the work area and the output buffers)."""
 
     def __init__(self, library, robot):
         from .pack import model_fields
@@ -317,67 +334,119 @@ class NativeModel:
         self.dof = f.dof
         self._lock = threading.Lock()
         self._ctype = ffi.typeof(library.real + "[]")
-        # single-sample input buffers, wrapped for cffi once
-        self._stage = np.zeros((3, f.dof), dtype=library.dtype)
-        self._stage_c = [ffi.from_buffer(self._ctype, row, require_writable=True)
-                         for row in self._stage]
-        self._single = {name: self._make_single(name) for name in _FUNCTIONS}
+        self._single = {name: self._make_single(name, None) for name in _FUNCTIONS}
 
     def _check(self, status, fn, sample=None):
         if status != 0:
             where = "" if sample is None else f" (sample {sample})"
             raise ValueError(f"{fn}: {self.library.status_str(status)}{where}")
 
-    def _make_single(self, fn):
-        """f(*inputs) for one sample: inputs of shape (n,) (any real dtype; not checked
-        here), outputs new float64 arrays."""
+    def single(self, fn, fallback=None):
+        """The one-sample entry of computation `fn` (e.g. "inverse_dynamics"): f(*inputs).
+
+        When every input is a float64 ndarray of shape (n,) (any strides; an ndarray
+        subclass counts as its data) it computes at once and returns new float64 arrays.
+        Any other input, and a sample the C function refuses, goes to fallback(*inputs)
+        (ffwd.Dynamics gives its checks, which word the error); without a fallback, to the
+        general path, and a refused sample raises ValueError naming the status."""
+        if fallback is None and fn in self._single:
+            return self._single[fn]
+        return self._make_single(fn, fallback)
+
+    def _make_single(self, fn, fallback):
+        """single(fn, fallback), made: every input becomes a bytes object (tobytes: one
+        C-order copy each, made before taking the lock and owned by this call, so no input
+        buffer is shared between calls or threads), passed to C with no further copy
+        (see _bytes_inputs); the C function writes into output buffers of the model, copied
+        out before the lock is released."""
         cname, k, shapes = _FUNCTIONS[fn]
-        ffi = self.library.ffi
-        func = getattr(self.library.lib, cname)
-        m, w, lock, check = self._m, self._w, self._lock, self._check
-        outs = [np.zeros(s, dtype=self.library.dtype) for s in shapes(self.dof)]
-        pouts = [ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
-        s0, s1, s2 = self._stage
-        p0, p1, p2 = self._stage_c
-        if self.library.dtype == np.float64:
-            def take(o):
-                return o.copy()
+        library = self.library
+        func = _bytes_inputs(library.ffi, getattr(library.lib, cname), k)
+        F, shape = np.dtype(np.float64), (self.dof,)
+        m, w, check = self._m, self._w, self._check
+        acquire, release = self._lock.acquire, self._lock.release
+        outs = [np.zeros(s, dtype=library.dtype) for s in shapes(self.dof)]
+        pouts = [library.ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
+        if library.dtype == np.float64:
+            tb = np.ndarray.tobytes       # the data (never a subclass's own tobytes)
+            takes = [o.copy for o in outs]
+        else:                             # a float build: float64 in, float64 out
+            def tb(a):
+                return np.asarray(a, dtype=library.dtype).tobytes()
+            takes = [functools.partial(o.astype, np.float64) for o in outs]
+        if fallback is None:
+            def other(*inputs):
+                return self._run(fn, inputs)
         else:
-            def take(o):
-                return o.astype(np.float64)
+            other = fallback
         if k == 3 and len(outs) == 1:
-            (o0,), (po,) = outs, pouts
+            (po,), (take,) = pouts, takes
 
             def one(a, b, c):
-                with lock:
-                    s0[...] = a
-                    s1[...] = b
-                    s2[...] = c
-                    st = func(m, w, p0, p1, p2, po)
-                    r = take(o0)
+                try:
+                    ok = (a.dtype is F and b.dtype is F and c.dtype is F
+                          and a.shape == shape and b.shape == shape and c.shape == shape)
+                    if ok:
+                        x, y, z = tb(a), tb(b), tb(c)
+                except (AttributeError, TypeError):   # not an ndarray
+                    ok = False
+                if not ok:
+                    return other(a, b, c)
+                acquire()
+                try:
+                    st = func(m, w, x, y, z, po)
+                    r = take()
+                finally:
+                    release()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(a, b, c)
                 return r
         elif k == 1 and len(outs) == 1:
-            (o0,), (po,) = outs, pouts
+            (po,), (take,) = pouts, takes
 
             def one(a):
-                with lock:
-                    s0[...] = a
-                    st = func(m, w, p0, po)
-                    r = take(o0)
+                try:
+                    ok = a.dtype is F and a.shape == shape
+                    if ok:
+                        x = tb(a)
+                except (AttributeError, TypeError):
+                    ok = False
+                if not ok:
+                    return other(a)
+                acquire()
+                try:
+                    st = func(m, w, x, po)
+                    r = take()
+                finally:
+                    release()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(a)
                 return r
         else:
             def one(*inputs):
-                with lock:
-                    for row, a in zip(self._stage, inputs):
-                        row[...] = a
-                    st = func(m, w, *self._stage_c[:k], *pouts)
-                    r = tuple(take(o) for o in outs)
+                try:
+                    ok = len(inputs) == k and all(a.dtype is F and a.shape == shape
+                                                  for a in inputs)
+                    if ok:
+                        xs = [tb(a) for a in inputs]
+                except (AttributeError, TypeError):
+                    ok = False
+                if not ok:
+                    return other(*inputs)
+                acquire()
+                try:
+                    st = func(m, w, *xs, *pouts)
+                    r = tuple(take() for take in takes)
+                finally:
+                    release()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(*inputs)
                 return r
         return one
 
@@ -389,8 +458,8 @@ class NativeModel:
         for a in arrays:
             if a.shape[-1:] != (n,) or a.shape != arrays[0].shape or a.ndim not in (1, 2):
                 raise ValueError(f"{fn}: inputs must have shape (n,) or (N, n) with n = {n}")
-        if arrays[0].ndim == 1:
-            return self._single[fn](*arrays)
+        if arrays[0].ndim == 1:   # float64 (n,) arrays: the one-sample entry takes them
+            return self._single[fn](*[a.astype(np.float64, copy=False) for a in arrays])
         out_shapes = shapes(n)
         N = arrays[0].shape[0]
         outs = [np.zeros((N,) + s, dtype=dt) for s in out_shapes]
@@ -450,11 +519,6 @@ class NativeModel:
 
     def regressor(self, q, qd, qdd):
         return self._run("regressor", (q, qd, qdd))
-
-    def single(self, fn):
-        """The one-sample entry of computation `fn` (e.g. "inverse_dynamics"): f(*inputs)
-        with inputs of shape (n,) already checked by the caller (ffwd.Dynamics)."""
-        return self._single[fn]
 
     def set_payload(self, mass, com, inertia):
         """mass, com (3,) in the tool frame, inertia about the com (xx, xy, xz, yy, yz, zz)."""
