@@ -188,6 +188,10 @@ class _CheckedFront:
             raise ValueError(msg or f"{method}: {exc}") from None
 
 
+_DIRECT = ("inverse_dynamics", "gravity", "mass_matrix", "forward_dynamics", "tool_pose",
+           "tool_jacobian", "regressor")   # all but torque_parts (wrapped in TorqueParts)
+
+
 class _Entries:
     """The computations of one ffwd._core.Model as plain attributes (Model.entries():
     fast-call functions that check their arguments in C++)."""
@@ -216,7 +220,7 @@ class Dynamics:
         self.backend = os.fspath(backend)
         self.dof = robot.dof
         self._core = self._make_core(robot)
-        self._front = self._make_front()
+        self._set_front(self._make_front())
 
     @property
     def robot(self):
@@ -252,6 +256,16 @@ class Dynamics:
                 entries = getattr(self._core, "entries", None)
                 return self._core if entries is None else _Entries(entries())
         return _CheckedFront(self._core, self.dof, check_first=self.backend == "twin")
+
+    def _set_front(self, front):
+        """Use `front`. Each computation that returns the front's result as it is also
+        becomes an attribute of this object, the front's own entry: a call then skips the
+        method of this class (one Python call less per sample). The methods below stay as
+        the documented interface; one a subclass overrides is left to it."""
+        self._front = front
+        for name in _DIRECT:
+            if getattr(type(self), name) is getattr(Dynamics, name):
+                setattr(self, name, getattr(front, name))
 
     def __repr__(self):
         return f"Dynamics({self._robot.name!r}, {self.dof} joints, backend={self.backend!r})"
@@ -298,7 +312,7 @@ class Dynamics:
         p = robot.payload
         if self.backend == "twin":
             self._core = _TwinCore(robot)
-            self._front = self._make_front()
+            self._set_front(self._make_front())
         else:
             self._core.set_payload(p.mass, np.asarray(p.com, dtype=float),
                                    payload_entries(p.inertia))

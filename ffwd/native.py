@@ -271,20 +271,36 @@ _FUNCTIONS = {
 }
 
 
-def _bytes_inputs(ffi, func, k):
-    """C function `func` (model, work, k input arrays, outputs) called through a pointer
-    type that declares its k inputs char *, so that a bytes object can be passed for each:
-    cffi then passes a pointer to the object's own data (no copy, nothing wrapped). Every
-    pointer argument is handed to libffi as the same pointer type, so this is the same
-    machine call as through the declared type. (CPython keeps the data of a bytes object
-    at a multiple of 8 bytes, the alignment of double.)"""
+def _bytes_inputs(ffi, func, k, n_out):
+    """C function `func` (model, work, k input arrays, n_out output arrays) called through
+    a pointer type that declares its k inputs char *, so that a bytes object can be passed
+    for each: cffi then passes a pointer to the object's own data (no copy, nothing
+    wrapped). Every pointer argument is handed to libffi as the same pointer type, so this
+    is the same machine call as through the declared type. (CPython keeps the data of a
+    bytes object at a multiple of 8 bytes, the alignment of double.)"""
     T = ffi.typeof(func)
     real_p = ffi.typeof("ffwd_real *")
-    if T.kind != "function" or len(T.args) < 2 + k or any(a != real_p for a in T.args[2:2 + k]):
-        raise NativeError(f"{T.cname}: expected (model, work, {k} ffwd_real * inputs, outputs)")
+    if (T.kind != "function" or len(T.args) != 2 + k + n_out
+            or [a.cname for a in T.args[:2]] != ["ffwd_model *", "ffwd_work *"]
+            or any(a != real_p for a in T.args[2:])):
+        raise NativeError(f"{T.cname}: expected (model, work, {k} inputs, {n_out} outputs)")
     args = [a.cname for a in T.args]
     args[2:2 + k] = ["char *"] * k
     return ffi.cast(f"{T.result.cname}(*)({', '.join(args)})", func)
+
+
+def _compiled_calls():
+    """The module ffwd._calls (the cffi API-mode call helpers of csrc/cffi, built with the
+    package), or None where it was not built (then calls go through libffi)."""
+    try:
+        from . import _calls
+    except ImportError:
+        return None
+    return _calls
+
+
+def _address(ffi, cdata):
+    return int(ffi.cast("uintptr_t", cdata))
 
 
 class NativeModel:
@@ -296,7 +312,9 @@ class NativeModel:
     per array and a Python loop of C calls over pointers into them. Calls on one model
     take turns (a lock: they share the work area and the output buffers)."""
 
-    def __init__(self, library, robot):
+    def __init__(self, library, robot, compiled=True):
+        """compiled: call through the module ffwd._calls where it is built (False: always
+        through libffi, as the batch path does)."""
         from .pack import model_fields
 
         self.library = library
@@ -334,6 +352,8 @@ class NativeModel:
         self.dof = f.dof
         self._lock = threading.Lock()
         self._ctype = ffi.typeof(library.real + "[]")
+        self._calls = _compiled_calls() if compiled else None
+        self._keep = []   # cffi objects the one-sample entries point into
         self._single = {name: self._make_single(name, None) for name in _FUNCTIONS}
 
     def _check(self, status, fn, sample=None):
@@ -361,12 +381,11 @@ class NativeModel:
         out before the lock is released."""
         cname, k, shapes = _FUNCTIONS[fn]
         library = self.library
-        func = _bytes_inputs(library.ffi, getattr(library.lib, cname), k)
         F, shape = np.dtype(np.float64), (self.dof,)
-        m, w, check = self._m, self._w, self._check
+        check = self._check
         acquire, release = self._lock.acquire, self._lock.release
         outs = [np.zeros(s, dtype=library.dtype) for s in shapes(self.dof)]
-        pouts = [library.ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
+        call, h = self._entry(cname, k, outs)
         if library.dtype == np.float64:
             tb = np.ndarray.tobytes       # the data (never a subclass's own tobytes)
             takes = [o.copy for o in outs]
@@ -380,7 +399,7 @@ class NativeModel:
         else:
             other = fallback
         if k == 3 and len(outs) == 1:
-            (po,), (take,) = pouts, takes
+            (take,) = takes
 
             def one(a, b, c):
                 try:
@@ -388,13 +407,13 @@ class NativeModel:
                           and a.shape == shape and b.shape == shape and c.shape == shape)
                     if ok:
                         x, y, z = tb(a), tb(b), tb(c)
-                except (AttributeError, TypeError):   # not an ndarray
+                except Exception:   # not an ndarray (no dtype, no shape, no tobytes)
                     ok = False
                 if not ok:
                     return other(a, b, c)
                 acquire()
                 try:
-                    st = func(m, w, x, y, z, po)
+                    st = call(h, x, y, z)
                     r = take()
                 finally:
                     release()
@@ -404,20 +423,20 @@ class NativeModel:
                     return fallback(a, b, c)
                 return r
         elif k == 1 and len(outs) == 1:
-            (po,), (take,) = pouts, takes
+            (take,) = takes
 
             def one(a):
                 try:
                     ok = a.dtype is F and a.shape == shape
                     if ok:
                         x = tb(a)
-                except (AttributeError, TypeError):
+                except Exception:
                     ok = False
                 if not ok:
                     return other(a)
                 acquire()
                 try:
-                    st = func(m, w, x, po)
+                    st = call(h, x)
                     r = take()
                 finally:
                     release()
@@ -433,13 +452,13 @@ class NativeModel:
                                                   for a in inputs)
                     if ok:
                         xs = [tb(a) for a in inputs]
-                except (AttributeError, TypeError):
+                except Exception:
                     ok = False
                 if not ok:
                     return other(*inputs)
                 acquire()
                 try:
-                    st = func(m, w, *xs, *pouts)
+                    st = call(h, *xs)
                     r = tuple(take() for take in takes)
                 finally:
                     release()
@@ -449,6 +468,33 @@ class NativeModel:
                     return fallback(*inputs)
                 return r
         return one
+
+    def _entry(self, cname, k, outs):
+        """(call, h): call(h, *input_bytes) runs C function `cname` on the model and its
+        work area with k inputs given as bytes, writing into the arrays `outs`, and
+        returns its status: a helper of ffwd._calls (a direct C call; h holds the
+        function, model, work area and outputs) where that module is built, else a call
+        through libffi."""
+        ffi = self.library.ffi
+        func = _bytes_inputs(ffi, getattr(self.library.lib, cname), k, len(outs))
+        pouts = [ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
+        helper = getattr(self._calls.lib, f"ffwd_call_{k}_{len(outs)}", None) \
+            if self._calls is not None else None
+        if helper is None:
+            m, w = self._m, self._w
+
+            def call(h, *inputs):
+                return func(m, w, *inputs, *pouts)
+            return call, None
+        cf = self._calls.ffi
+        h = cf.new("ffwd_call *")
+        h.fn = cf.cast("void(*)(void)", _address(ffi, func))
+        h.model = cf.cast("void *", _address(ffi, self._m))
+        h.work = cf.cast("void *", _address(ffi, self._w))
+        for i, p in enumerate(pouts):
+            h.out[i] = cf.cast("void *", _address(ffi, p))
+        self._keep.append(pouts)   # h points into them (and into self._m, self._w)
+        return helper, h
 
     def _run(self, fn, inputs):
         cname, k, shapes = _FUNCTIONS[fn]
