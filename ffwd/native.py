@@ -309,8 +309,9 @@ class NativeModel:
     A single sample reaches C as one bytes object per input (no buffer shared between
     calls), the C function writes into a cached output buffer, and a copy of that is
     returned: one C call and no ffi object made per call. A batch is one ffi.from_buffer
-    per array and a Python loop of C calls over pointers into them. Calls on one model
-    take turns (a lock: they share the work area and the output buffers)."""
+    per array and one call of ffwd._calls' batch loop (without that module, a Python loop
+    of libffi calls over pointers into them). Calls on one model take turns (a lock: they
+    share the work area and the output buffers)."""
 
     def __init__(self, library, robot, compiled=True):
         """compiled: call through the module ffwd._calls where it is built (False: always
@@ -354,6 +355,7 @@ class NativeModel:
         self._ctype = ffi.typeof(library.real + "[]")
         self._calls = _compiled_calls() if compiled else None
         self._keep = []   # cffi objects the one-sample entries point into
+        self._batch_calls = {}
         self._single = {name: self._make_single(name, None) for name in _FUNCTIONS}
 
     def _check(self, status, fn, sample=None):
@@ -516,7 +518,10 @@ class NativeModel:
         return outs[0] if len(outs) == 1 else tuple(outs)
 
     def _batch(self, fn, func, arrays, outs, sizes):
-        """The C function over the rows of arrays into the rows of outs."""
+        """The C function over the rows of arrays into the rows of outs: one call of
+        ffwd_call_batch where ffwd._calls is built, else a loop of libffi calls."""
+        if self._calls is not None:
+            return self._batch_compiled(fn, func, arrays, outs)
         ffi = self.library.ffi
         ct, m, w, n, N = self._ctype, self._m, self._w, self.dof, arrays[0].shape[0]
         xs = [ffi.from_buffer(ct, a) for a in arrays]
@@ -541,6 +546,32 @@ class NativeModel:
                     if st:
                         break
         self._check(st, fn, i)
+
+    def _batch_compiled(self, fn, func, arrays, outs):
+        cf, ffi = self._calls.ffi, self.library.ffi
+        k, N = len(arrays), arrays[0].shape[0]
+        h = self._batch_calls.get(fn)
+        if h is None:
+            _bytes_inputs(ffi, func, k, len(outs))   # the argument list it is called with
+            h = cf.new("ffwd_call *")
+            h.fn = cf.cast("void(*)(void)", _address(ffi, func))
+            h.model = cf.cast("void *", _address(ffi, self._m))
+            h.work = cf.cast("void *", _address(ffi, self._w))
+            self._batch_calls[fn] = h
+        b = cf.new("ffwd_batch *")
+        src = [cf.from_buffer(a) for a in arrays]
+        dst = [cf.from_buffer(o, require_writable=True) for o in outs]
+        for j, x in enumerate(src):
+            b.src[j] = x
+        for j, (y, o) in enumerate(zip(dst, outs)):
+            b.dst[j] = y
+            b.dst_step[j] = o.strides[0]
+        b.src_step = arrays[0].strides[0]
+        b.count = N
+        status = cf.new("int *")
+        with self._lock:
+            done = self._calls.lib.ffwd_call_batch(h, k, len(outs), b, status)
+        self._check(status[0], fn, done)
 
     def inverse_dynamics(self, q, qd, qdd):
         return self._run("inverse_dynamics", (q, qd, qdd))

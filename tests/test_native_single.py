@@ -216,3 +216,19 @@ def test_signature_that_does_not_fit_is_refused(shipped_library):
         native._bytes_inputs(lib.ffi, lib.lib.ffwd_gravity_torque, 3, 1)
     with pytest.raises(native.NativeError, match="expected"):
         native._bytes_inputs(lib.ffi, lib.lib.ffwd_payload_set, 1, 1)
+
+
+def test_batch_names_the_refused_sample(dyn):
+    # the model's batch path (one C loop through ffwd._calls, or libffi calls) stops at
+    # the first refused sample and names it; Dynamics words it with the entry
+    n = dyn.dof
+    q, qd, qdd = _states(n, rows=4)
+    q[2, 1] = np.nan
+    with pytest.raises(ValueError, match=r"^gravity: .* \(sample 2\)$"):
+        dyn._core.gravity(q)
+    with pytest.raises(ValueError, match=r"^torque_parts: .* \(sample 2\)$"):
+        dyn._core.torque_parts(q, qd, qdd)
+    with pytest.raises(ValueError, match=r"^q\[2, 1\] is nan$"):
+        dyn.inverse_dynamics(q, qd, qdd)
+    q[2, 1] = 0.0
+    assert _equal(dyn.inverse_dynamics(q, qd, qdd)[3], dyn.inverse_dynamics(q[3], qd[3], qdd[3]))

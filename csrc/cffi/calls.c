@@ -9,7 +9,9 @@
  * replaces) assumes as well; ffwd/native.py checks the declared argument list of each
  * function against the shape it calls it with. What stays the same from call to call
  * (function, model, work area, output arrays) is set once in an ffwd_call, so that a
- * call converts only its inputs. */
+ * call converts only its inputs. A batch runs as one call (ffwd_call_batch). */
+
+#include <stddef.h>
 
 typedef struct ffwd_call {
     void (*fn)(void);  /* the ffwd_* function of the library */
@@ -41,4 +43,52 @@ static int ffwd_call_3_4(const ffwd_call *c, const char *a, const char *b, const
 {
     return ((ffwd_fn_3_4)c->fn)(c->model, c->work, a, b, d,
                                 c->out[0], c->out[1], c->out[2], c->out[3]);
+}
+
+/* The samples of a batch: sample i reads src[j] + i * src_step and writes
+ * dst[j] + i * dst_step[j] (steps in bytes). */
+typedef struct ffwd_batch {
+    const char *src[3];
+    char *dst[4];
+    ptrdiff_t src_step;
+    ptrdiff_t dst_step[4];
+    ptrdiff_t count;
+} ffwd_batch;
+
+/* f(model, work, inputs, outputs) over the samples of b, in order, with n_in inputs and
+ * n_out outputs as above. Returns the number of samples done: count, or the index of the
+ * first sample f refused, whose status is then in *status (else 0; -1 for an n_in, n_out
+ * pair it has no call for). */
+static ptrdiff_t ffwd_call_batch(const ffwd_call *c, int n_in, int n_out,
+                                 const ffwd_batch *b, int *status)
+{
+    ptrdiff_t i;
+    *status = 0;
+    for (i = 0; i < b->count; ++i) {
+        const char *x0 = b->src[0] + i * b->src_step;
+        int st;
+        if (n_in == 1 && n_out == 1) {
+            st = ((ffwd_fn_1_1)c->fn)(c->model, c->work, x0, b->dst[0] + i * b->dst_step[0]);
+        } else if (n_in == 3 && (n_out == 1 || n_out == 4)) {
+            const char *x1 = b->src[1] + i * b->src_step;
+            const char *x2 = b->src[2] + i * b->src_step;
+            if (n_out == 1) {
+                st = ((ffwd_fn_3_1)c->fn)(c->model, c->work, x0, x1, x2,
+                                          b->dst[0] + i * b->dst_step[0]);
+            } else {
+                st = ((ffwd_fn_3_4)c->fn)(c->model, c->work, x0, x1, x2,
+                                          b->dst[0] + i * b->dst_step[0],
+                                          b->dst[1] + i * b->dst_step[1],
+                                          b->dst[2] + i * b->dst_step[2],
+                                          b->dst[3] + i * b->dst_step[3]);
+            }
+        } else {
+            st = -1;
+        }
+        if (st != 0) {
+            *status = st;
+            return i;
+        }
+    }
+    return b->count;
 }

@@ -16,6 +16,12 @@ typedef struct ffwd_call { void (*fn)(void); void *model; void *work; void *out[
 int ffwd_call_1_1(const ffwd_call *c, const char *a);
 int ffwd_call_3_1(const ffwd_call *c, const char *a, const char *b, const char *d);
 int ffwd_call_3_4(const ffwd_call *c, const char *a, const char *b, const char *d);
+typedef struct ffwd_batch {
+    const char *src[3]; char *dst[4];
+    ptrdiff_t src_step; ptrdiff_t dst_step[4]; ptrdiff_t count;
+} ffwd_batch;
+ptrdiff_t ffwd_call_batch(const ffwd_call *c, int n_in, int n_out, const ffwd_batch *b,
+                          int *status);
 """
 
 
