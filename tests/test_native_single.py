@@ -232,3 +232,29 @@ def test_batch_names_the_refused_sample(dyn):
         dyn.inverse_dynamics(q, qd, qdd)
     q[2, 1] = 0.0
     assert _equal(dyn.inverse_dynamics(q, qd, qdd)[3], dyn.inverse_dynamics(q[3], qd[3], qdd[3]))
+
+
+def test_a_call_waits_for_its_turn(dyn):
+    # while another user holds the model (here: the test, through the model's turns), a
+    # one-sample call on another thread waits, and completes once the model is given back
+    n = dyn.dof
+    q, qd, qdd = _states(n, rows=1)
+    want = dyn.inverse_dynamics(q[0], qd[0], qdd[0])
+    got, started = [], threading.Event()
+
+    def call():
+        started.set()
+        got.append(dyn.inverse_dynamics(q[0], qd[0], qdd[0]))
+
+    turns = dyn._core._lock
+    with turns:
+        th = threading.Thread(target=call)
+        th.start()
+        started.wait()
+        th.join(0.2)
+        assert th.is_alive() and got == []     # waiting for the model
+    th.join(10)
+    assert not th.is_alive() and len(got) == 1 and _equal(got[0], want)
+    assert turns.waiters == []
+    # and the model is free again
+    assert _equal(dyn.inverse_dynamics(q[0], qd[0], qdd[0]), want)
