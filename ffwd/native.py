@@ -541,6 +541,8 @@ class NativeModel:
                         check(st, fn)
                     return fallback(*inputs)
                 return r
+        one.__name__ = one.__qualname__ = fn
+        one.__doc__ = f"{fn} of one sample (NativeModel.single)"
         return one
 
     def _entry(self, cname, k, outs):
