@@ -18,7 +18,7 @@ INSTALL_STAMP := $(VENV)/.ffwd-installed
 # what the compiled part of the package is built from: a change here means reinstall
 BUILD_INPUTS := $(shell find csrc cmake -type f 2>/dev/null) CMakeLists.txt pyproject.toml
 # tools the venv needs to build (no build isolation, so rebuilds are incremental) and test
-VENV_TOOLS := "scikit-build-core>=0.10" "pybind11>=2.12" "cmake>=3.18" ninja pytest hypothesis sympy
+VENV_TOOLS := "scikit-build-core>=0.10" "pybind11>=2.12" "cffi>=1.15" "cmake>=3.18" ninja pytest hypothesis sympy
 
 .PHONY: venv install ctest pytest test demo clean distclean
 

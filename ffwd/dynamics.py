@@ -135,39 +135,11 @@ class _TwinCore:
         pass   # Dynamics replaces the robot (and so this core) instead
 
 
-_ND = np.ndarray
 _SIGNATURES = {   # the computations and the names of their arguments
     "inverse_dynamics": ("q", "qd", "qdd"), "gravity": ("q",), "torque_parts": ("q", "qd", "qdd"),
     "mass_matrix": ("q",), "forward_dynamics": ("q", "qd", "tau"), "tool_pose": ("q",),
     "tool_jacobian": ("q",), "regressor": ("q", "qd", "qdd"),
 }
-
-
-def _fast3(one, shape, full, fn, names):
-    """A 3-argument computation: one float64 sample of shape (n,) straight to `one`,
-    anything else (and any error, to word it) through full(fn, names, values)."""
-    def call(a, b, c):
-        if (type(a) is _ND and type(b) is _ND and type(c) is _ND
-                and a.dtype is _F64 and b.dtype is _F64 and c.dtype is _F64
-                and a.shape == shape and b.shape == shape and c.shape == shape):
-            try:
-                return one(a, b, c)
-            except ValueError:
-                pass   # the full path words the error
-        return full(fn, names, (a, b, c))
-    return call
-
-
-def _fast1(one, shape, full, fn, names):
-    """The same for a computation of q alone."""
-    def call(a):
-        if type(a) is _ND and a.dtype is _F64 and a.shape == shape:
-            try:
-                return one(a)
-            except ValueError:
-                pass   # the full path words the error
-        return full(fn, names, (a,))
-    return call
 
 
 class _CheckedFront:
@@ -177,7 +149,8 @@ class _CheckedFront:
     makes the same checks in C++ and is called directly.
 
     Each computation is an attribute. With a core that has a one-sample entry
-    (NativeModel.single), a single float64 sample of shape (n,) goes straight to it."""
+    (NativeModel.single), that entry is the attribute: it computes a float64 sample of
+    shape (n,) at once and hands anything else (and a refused sample) to the checks."""
 
     def __init__(self, core, dof, check_first):
         self._core = core
@@ -185,12 +158,10 @@ class _CheckedFront:
         self._check_first = check_first
         single = getattr(core, "single", None)
         for fn, names in _SIGNATURES.items():
-            if single is None:
-                def call(*values, fn=fn, names=names):
-                    return self._call(fn, names, values)
-            else:
-                fast = _fast3 if len(names) == 3 else _fast1
-                call = fast(single(fn), (dof,), self._call, fn, names)
+            def call(*values, fn=fn, names=names):
+                return self._call(fn, names, values)
+            if single is not None:
+                call = single(fn, call)
             setattr(self, fn, call)
 
     def _call(self, method, names, values):
@@ -215,6 +186,10 @@ class _CheckedFront:
         except (FloatingPointError, ArithmeticError, np.linalg.LinAlgError) as exc:
             msg = _nonfinite_message(names, arrays)
             raise ValueError(msg or f"{method}: {exc}") from None
+
+
+_DIRECT = ("inverse_dynamics", "gravity", "mass_matrix", "forward_dynamics", "tool_pose",
+           "tool_jacobian", "regressor")   # all but torque_parts (wrapped in TorqueParts)
 
 
 class _Entries:
@@ -245,7 +220,7 @@ class Dynamics:
         self.backend = os.fspath(backend)
         self.dof = robot.dof
         self._core = self._make_core(robot)
-        self._front = self._make_front()
+        self._set_front(self._make_front())
 
     @property
     def robot(self):
@@ -281,6 +256,16 @@ class Dynamics:
                 entries = getattr(self._core, "entries", None)
                 return self._core if entries is None else _Entries(entries())
         return _CheckedFront(self._core, self.dof, check_first=self.backend == "twin")
+
+    def _set_front(self, front):
+        """Use `front`. Each computation that returns the front's result as it is also
+        becomes an attribute of this object, the front's own entry: a call then skips the
+        method of this class (one Python call less per sample). The methods below stay as
+        the documented interface; one a subclass overrides is left to it."""
+        self._front = front
+        for name in _DIRECT:
+            if getattr(type(self), name) is getattr(Dynamics, name):
+                setattr(self, name, getattr(front, name))
 
     def __repr__(self):
         return f"Dynamics({self._robot.name!r}, {self.dof} joints, backend={self.backend!r})"
@@ -327,7 +312,7 @@ class Dynamics:
         p = robot.payload
         if self.backend == "twin":
             self._core = _TwinCore(robot)
-            self._front = self._make_front()
+            self._set_front(self._make_front())
         else:
             self._core.set_payload(p.mass, np.asarray(p.com, dtype=float),
                                    payload_entries(p.inertia))

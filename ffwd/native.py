@@ -13,6 +13,7 @@ library's own numbers, so a header that does not match the binary is refused.
 """
 from __future__ import annotations
 
+import functools
 import importlib.util
 import os
 import re
@@ -270,16 +271,107 @@ _FUNCTIONS = {
 }
 
 
+def _bytes_inputs(ffi, func, k, n_out):
+    """C function `func` (model, work, k input arrays, n_out output arrays) called through
+    a pointer type that declares its k inputs char *, so that a bytes object can be passed
+    for each: cffi then passes a pointer to the object's own data (no copy, nothing
+    wrapped). Every pointer argument is handed to libffi as the same pointer type, so this
+    is the same machine call as through the declared type. (CPython keeps the data of a
+    bytes object at a multiple of 8 bytes, the alignment of double.)"""
+    T = ffi.typeof(func)
+    real_p = ffi.typeof("ffwd_real *")
+    if (T.kind != "function" or len(T.args) != 2 + k + n_out
+            or [a.cname for a in T.args[:2]] != ["ffwd_model *", "ffwd_work *"]
+            or any(a != real_p for a in T.args[2:])):
+        raise NativeError(f"{T.cname}: expected (model, work, {k} inputs, {n_out} outputs)")
+    args = [a.cname for a in T.args]
+    args[2:2 + k] = ["char *"] * k
+    return ffi.cast(f"{T.result.cname}(*)({', '.join(args)})", func)
+
+
+def _compiled_calls():
+    """The module ffwd._calls (the cffi API-mode call helpers of csrc/cffi, built with the
+    package), or None where it was not built (then calls go through libffi)."""
+    try:
+        from . import _calls
+    except ImportError:
+        return None
+    return _calls
+
+
+def _address(ffi, cdata):
+    return int(ffi.cast("uintptr_t", cdata))
+
+
+class _Turns:
+    """Mutual exclusion for the calls on one model, cheaper to pass than threading.Lock
+    when nobody else holds it: the holder is whoever popped the one token from a list
+    (list.pop and list.append are atomic), about half the instructions of Lock.acquire
+    and release, whose argument parsing dominates at this scale. A thread that finds the
+    list empty waits on a condition; whoever gives the token back while a thread waits
+    wakes one (a waiter registers under the condition before it looks for the token, so
+    no wake-up is lost).
+
+        try:
+            t = pop()               # the fast pass (pop, push = turns.pop, turns.push)
+        except IndexError:
+            t = turns.wait()
+        try:
+            ...
+        finally:
+            push(t)
+            if turns.waiters:
+                turns.wake()
+
+    `with turns:` does the same for the other users."""
+
+    def __init__(self):
+        tokens = [True]
+        self.pop, self.push = tokens.pop, tokens.append
+        self.waiters = []
+        self._cond = threading.Condition(threading.Lock())
+
+    def wait(self):
+        with self._cond:
+            self.waiters.append(None)
+            try:
+                while True:
+                    try:
+                        return self.pop()
+                    except IndexError:
+                        self._cond.wait()
+            finally:
+                self.waiters.pop()
+
+    def wake(self):
+        with self._cond:
+            self._cond.notify()
+
+    def __enter__(self):
+        try:
+            self.pop()
+        except IndexError:
+            self.wait()
+
+    def __exit__(self, *exc):
+        self.push(True)   # the token (there is one)
+        if self.waiters:
+            self.wake()
+
+
 class NativeModel:
     """ffwd_model + ffwd_work + ffwd_payload_box in cffi memory.
 
-    A single sample is copied into input buffers that stay wrapped for cffi, the C
-    function writes into a cached output buffer, and a copy of that is returned: one C
-    call and no ffi object made per call. A batch is one ffi.from_buffer per array and a
-    Python loop of C calls over pointers into them. Calls on one model take turns (a lock:
-    they share the work area and the buffers)."""
+    A single sample reaches C as one bytes object per input (no buffer shared between
+    calls), the C function writes into a cached output buffer, and a copy of that is
+    returned: one C call and no ffi object made per call. A batch is one ffi.from_buffer
+    per array and one call of ffwd._calls' batch loop (without that module, a Python loop
+    of libffi calls over pointers into them). Calls on one model take turns (a lock: they
+    share the work area and the output buffers)."""
 
-    def __init__(self, library, robot):
+    def __init__(self, library, robot, compiled=True):
+        """compiled: call through the module ffwd._calls where it is built (False: always
+        through libffi, as the batch path does)."""
         from .pack import model_fields
 
         self.library = library
@@ -315,71 +407,170 @@ class NativeModel:
         self._check(lib.ffwd_payload_init(self._box, m), "payload")
         self._check(lib.ffwd_work_use_payload(self._w, self._box), "payload")
         self.dof = f.dof
-        self._lock = threading.Lock()
+        self._lock = _Turns()
         self._ctype = ffi.typeof(library.real + "[]")
-        # single-sample input buffers, wrapped for cffi once
-        self._stage = np.zeros((3, f.dof), dtype=library.dtype)
-        self._stage_c = [ffi.from_buffer(self._ctype, row, require_writable=True)
-                         for row in self._stage]
-        self._single = {name: self._make_single(name) for name in _FUNCTIONS}
+        self._calls = _compiled_calls() if compiled else None
+        self._keep = []   # cffi objects the one-sample entries point into
+        self._batch_calls = {}
+        self._single = {name: self._make_single(name, None) for name in _FUNCTIONS}
 
     def _check(self, status, fn, sample=None):
         if status != 0:
             where = "" if sample is None else f" (sample {sample})"
             raise ValueError(f"{fn}: {self.library.status_str(status)}{where}")
 
-    def _make_single(self, fn):
-        """f(*inputs) for one sample: inputs of shape (n,) (any real dtype; not checked
-        here), outputs new float64 arrays."""
+    def single(self, fn, fallback=None):
+        """The one-sample entry of computation `fn` (e.g. "inverse_dynamics"): f(*inputs).
+
+        When every input is a float64 ndarray of shape (n,) (any strides; an ndarray
+        subclass counts as its data) it computes at once and returns new float64 arrays.
+        Any other input, and a sample the C function refuses, goes to fallback(*inputs)
+        (ffwd.Dynamics gives its checks, which word the error); without a fallback, to the
+        general path, and a refused sample raises ValueError naming the status."""
+        if fallback is None and fn in self._single:
+            return self._single[fn]
+        return self._make_single(fn, fallback)
+
+    def _make_single(self, fn, fallback):
+        """single(fn, fallback), made: every input becomes a bytes object (tobytes: one
+        C-order copy each, made before taking the lock and owned by this call, so no input
+        buffer is shared between calls or threads), passed to C with no further copy
+        (see _bytes_inputs); the C function writes into output buffers of the model, copied
+        out before the lock is released."""
         cname, k, shapes = _FUNCTIONS[fn]
-        ffi = self.library.ffi
-        func = getattr(self.library.lib, cname)
-        m, w, lock, check = self._m, self._w, self._lock, self._check
-        outs = [np.zeros(s, dtype=self.library.dtype) for s in shapes(self.dof)]
-        pouts = [ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
-        s0, s1, s2 = self._stage
-        p0, p1, p2 = self._stage_c
-        if self.library.dtype == np.float64:
-            def take(o):
-                return o.copy()
+        library = self.library
+        F, shape = np.dtype(np.float64), (self.dof,)
+        check = self._check
+        turns = self._lock
+        pop, push, waiters = turns.pop, turns.push, turns.waiters
+        outs = [np.zeros(s, dtype=library.dtype) for s in shapes(self.dof)]
+        call, h = self._entry(cname, k, outs)
+        if library.dtype == np.float64:
+            tb = np.ndarray.tobytes       # the data (never a subclass's own tobytes)
+            takes = [o.copy for o in outs]
+        else:                             # a float build: float64 in, float64 out
+            def tb(a):
+                return np.asarray(a, dtype=library.dtype).tobytes()
+            takes = [functools.partial(o.astype, np.float64) for o in outs]
+        if fallback is None:
+            def other(*inputs):
+                return self._run(fn, inputs)
         else:
-            def take(o):
-                return o.astype(np.float64)
+            other = fallback
         if k == 3 and len(outs) == 1:
-            (o0,), (po,) = outs, pouts
+            (take,) = takes
 
             def one(a, b, c):
-                with lock:
-                    s0[...] = a
-                    s1[...] = b
-                    s2[...] = c
-                    st = func(m, w, p0, p1, p2, po)
-                    r = take(o0)
+                try:
+                    ok = (a.dtype is F and b.dtype is F and c.dtype is F
+                          and a.shape == shape and b.shape == shape and c.shape == shape)
+                    if ok:
+                        x, y, z = tb(a), tb(b), tb(c)
+                except Exception:   # not an ndarray (no dtype, no shape, no tobytes)
+                    ok = False
+                if not ok:
+                    return other(a, b, c)
+                try:
+                    t = pop()
+                except IndexError:
+                    t = turns.wait()
+                try:
+                    st = call(h, x, y, z)
+                    r = take()
+                finally:
+                    push(t)
+                    if waiters:
+                        turns.wake()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(a, b, c)
                 return r
         elif k == 1 and len(outs) == 1:
-            (o0,), (po,) = outs, pouts
+            (take,) = takes
 
             def one(a):
-                with lock:
-                    s0[...] = a
-                    st = func(m, w, p0, po)
-                    r = take(o0)
+                try:
+                    ok = a.dtype is F and a.shape == shape
+                    if ok:
+                        x = tb(a)
+                except Exception:
+                    ok = False
+                if not ok:
+                    return other(a)
+                try:
+                    t = pop()
+                except IndexError:
+                    t = turns.wait()
+                try:
+                    st = call(h, x)
+                    r = take()
+                finally:
+                    push(t)
+                    if waiters:
+                        turns.wake()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(a)
                 return r
         else:
             def one(*inputs):
-                with lock:
-                    for row, a in zip(self._stage, inputs):
-                        row[...] = a
-                    st = func(m, w, *self._stage_c[:k], *pouts)
-                    r = tuple(take(o) for o in outs)
+                try:
+                    ok = len(inputs) == k and all(a.dtype is F and a.shape == shape
+                                                  for a in inputs)
+                    if ok:
+                        xs = [tb(a) for a in inputs]
+                except Exception:
+                    ok = False
+                if not ok:
+                    return other(*inputs)
+                try:
+                    t = pop()
+                except IndexError:
+                    t = turns.wait()
+                try:
+                    st = call(h, *xs)
+                    r = tuple(take() for take in takes)
+                finally:
+                    push(t)
+                    if waiters:
+                        turns.wake()
                 if st:
-                    check(st, fn)
+                    if fallback is None:
+                        check(st, fn)
+                    return fallback(*inputs)
                 return r
+        one.__name__ = one.__qualname__ = fn
+        one.__doc__ = f"{fn} of one sample (NativeModel.single)"
         return one
+
+    def _entry(self, cname, k, outs):
+        """(call, h): call(h, *input_bytes) runs C function `cname` on the model and its
+        work area with k inputs given as bytes, writing into the arrays `outs`, and
+        returns its status: a helper of ffwd._calls (a direct C call; h holds the
+        function, model, work area and outputs) where that module is built, else a call
+        through libffi."""
+        ffi = self.library.ffi
+        func = _bytes_inputs(ffi, getattr(self.library.lib, cname), k, len(outs))
+        pouts = [ffi.from_buffer(self._ctype, o, require_writable=True) for o in outs]
+        helper = getattr(self._calls.lib, f"ffwd_call_{k}_{len(outs)}", None) \
+            if self._calls is not None else None
+        if helper is None:
+            m, w = self._m, self._w
+
+            def call(h, *inputs):
+                return func(m, w, *inputs, *pouts)
+            return call, None
+        cf = self._calls.ffi
+        h = cf.new("ffwd_call *")
+        h.fn = cf.cast("void(*)(void)", _address(ffi, func))
+        h.model = cf.cast("void *", _address(ffi, self._m))
+        h.work = cf.cast("void *", _address(ffi, self._w))
+        for i, p in enumerate(pouts):
+            h.out[i] = cf.cast("void *", _address(ffi, p))
+        self._keep.append(pouts)   # h points into them (and into self._m, self._w)
+        return helper, h
 
     def _run(self, fn, inputs):
         cname, k, shapes = _FUNCTIONS[fn]
@@ -389,8 +580,8 @@ class NativeModel:
         for a in arrays:
             if a.shape[-1:] != (n,) or a.shape != arrays[0].shape or a.ndim not in (1, 2):
                 raise ValueError(f"{fn}: inputs must have shape (n,) or (N, n) with n = {n}")
-        if arrays[0].ndim == 1:
-            return self._single[fn](*arrays)
+        if arrays[0].ndim == 1:   # float64 (n,) arrays: the one-sample entry takes them
+            return self._single[fn](*[a.astype(np.float64, copy=False) for a in arrays])
         out_shapes = shapes(n)
         N = arrays[0].shape[0]
         outs = [np.zeros((N,) + s, dtype=dt) for s in out_shapes]
@@ -401,7 +592,10 @@ class NativeModel:
         return outs[0] if len(outs) == 1 else tuple(outs)
 
     def _batch(self, fn, func, arrays, outs, sizes):
-        """The C function over the rows of arrays into the rows of outs."""
+        """The C function over the rows of arrays into the rows of outs: one call of
+        ffwd_call_batch where ffwd._calls is built, else a loop of libffi calls."""
+        if self._calls is not None:
+            return self._batch_compiled(fn, func, arrays, outs)
         ffi = self.library.ffi
         ct, m, w, n, N = self._ctype, self._m, self._w, self.dof, arrays[0].shape[0]
         xs = [ffi.from_buffer(ct, a) for a in arrays]
@@ -427,6 +621,32 @@ class NativeModel:
                         break
         self._check(st, fn, i)
 
+    def _batch_compiled(self, fn, func, arrays, outs):
+        cf, ffi = self._calls.ffi, self.library.ffi
+        k, N = len(arrays), arrays[0].shape[0]
+        h = self._batch_calls.get(fn)
+        if h is None:
+            _bytes_inputs(ffi, func, k, len(outs))   # the argument list it is called with
+            h = cf.new("ffwd_call *")
+            h.fn = cf.cast("void(*)(void)", _address(ffi, func))
+            h.model = cf.cast("void *", _address(ffi, self._m))
+            h.work = cf.cast("void *", _address(ffi, self._w))
+            self._batch_calls[fn] = h
+        b = cf.new("ffwd_batch *")
+        src = [cf.from_buffer(a) for a in arrays]
+        dst = [cf.from_buffer(o, require_writable=True) for o in outs]
+        for j, x in enumerate(src):
+            b.src[j] = x
+        for j, (y, o) in enumerate(zip(dst, outs)):
+            b.dst[j] = y
+            b.dst_step[j] = o.strides[0]
+        b.src_step = arrays[0].strides[0]
+        b.count = N
+        status = cf.new("int *")
+        with self._lock:
+            done = self._calls.lib.ffwd_call_batch(h, k, len(outs), b, status)
+        self._check(status[0], fn, done)
+
     def inverse_dynamics(self, q, qd, qdd):
         return self._run("inverse_dynamics", (q, qd, qdd))
 
@@ -450,11 +670,6 @@ class NativeModel:
 
     def regressor(self, q, qd, qdd):
         return self._run("regressor", (q, qd, qdd))
-
-    def single(self, fn):
-        """The one-sample entry of computation `fn` (e.g. "inverse_dynamics"): f(*inputs)
-        with inputs of shape (n,) already checked by the caller (ffwd.Dynamics)."""
-        return self._single[fn]
 
     def set_payload(self, mass, com, inertia):
         """mass, com (3,) in the tool frame, inertia about the com (xx, xy, xz, yy, yz, zz)."""

@@ -57,3 +57,26 @@ def test_float_inverse_dynamics_close_to_double_twin(float_library):
     rel, name = max(worst)
     print(f"\nfloat build: max relative error of inverse dynamics {rel:.3g} ({name}); "
           + ", ".join(f"{n}: {r:.2g}" for r, n in worst))
+
+
+def test_float_single_sample_equals_its_batch_row(float_library):
+    # one sample at a time (float64 in, converted to float; float64 out) gives the rows of
+    # the batch path of the same library exactly, through the model and through Dynamics
+    robot = ffwd.load(os.path.join(REPO, "examples", "robots", "six_axis.toml"))
+    n = robot.dof
+    q, qd, qdd = np.random.default_rng(11).uniform(-1.0, 1.0, (3, 4, n))
+    model = float_library.model(robot)
+    dyn = Dynamics(robot, float_library.path)
+    assert dyn._core.library.real_size == 4
+    want = model.inverse_dynamics(q, qd, qdd)
+    want_M = model.mass_matrix(q)
+    want_parts = model.torque_parts(q, qd, qdd)
+    for i in range(4):
+        for got in (model.inverse_dynamics(q[i], qd[i], qdd[i]),
+                    dyn.inverse_dynamics(q[i], qd[i], qdd[i]),
+                    dyn.inverse_dynamics(list(q[i]), qd[i].astype(np.float32), qdd[i])):
+            assert got.dtype == np.float64 and np.array_equal(got, want[i]), i
+        M = dyn.mass_matrix(q[i])
+        assert M.dtype == np.float64 and np.array_equal(M, want_M[i]), i
+        parts = dyn.torque_parts(q[i], qd[i], qdd[i])
+        assert all(np.array_equal(p, w[i]) for p, w in zip(parts, want_parts)), i
