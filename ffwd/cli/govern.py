@@ -122,6 +122,7 @@ def run(args):
           "override.png, torques.png")
     if share is not None and share > 0.1:
         print(f"note: for {100 * share:.0f} % of the cycles the window ({args.horizon} samples) "
-              "held the override below the command and below what the limits allow (it must "
-              "always hold a complete stop); a longer --horizon lets the robot run faster")
+              "held the override below the command and below what the torque, velocity and "
+              "acceleration limits allow (it must always hold a complete, jerk-bounded stop); "
+              "a longer --horizon lets the robot run faster")
     return 0 if (run_.done and bad == 0) else 1

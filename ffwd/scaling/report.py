@@ -79,9 +79,9 @@ def run_markdown(run, robot, violations=None, window_share=None):
                      f"{violations['torque_worst']:.4f}, {violations['velocity_worst']:.4f}, "
                      f"{violations['acceleration_worst']:.4f})")
     if window_share is not None:
-        lines.append(f"- override held below the command and below what the limits allow by "
-                     f"the window (it must hold a complete stop): {100 * window_share:.1f} % of "
-                     f"cycles")
+        lines.append(f"- override held below the command and below what the torque, velocity "
+                     f"and acceleration limits allow, by the window or the jerk-bounded stop it "
+                     f"must hold: {100 * window_share:.1f} % of cycles")
     return "\n".join(lines) + "\n"
 
 
