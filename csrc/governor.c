@@ -393,24 +393,25 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
      * (vp); the deceleration every limit allows at rest (dr) */
     sl->vp = BIG;
     sl->dr = BIG;
+    /* and for the box tests of plan D: each torque row's room, the viscous term, its
+     * interior maximum where b < 0, the largest kappa every velocity limit allows */
+    sl->k_vel = BIG;
+    sl->fit_ok = 0u;
     for (j = 0; j < n; j++) {
         const ffwd_joint *J = &m->joint[j];
-        ffwd_real d = absr(sl->dq[j]);
+        const ffwd_real d = absr(sl->dq[j]), bb = sl->b[j];
+        const ffwd_real fc = J->coulomb * sgnr(sl->dq[j]), tm = keep * J->tau_max;
+        const ffwd_real gv = J->viscous * sl->dq[j];
         if ((J->has_limits & FFWD_LIM_JERK) && d > FR(0))
             sl->vp = minr(sl->vp, FR(0.5) * keep * J->j_max / d);
         if (absr(sl->a[j]) > FR(0)) {
             ffwd_real room = keep * J->tau_max - absr(sl->c[j]) - J->coulomb;
             sl->dr = minr(sl->dr, maxr(room, FR(0)) / absr(sl->a[j]));
         }
-        if (d > FR(0))
+        if (d > FR(0)) {
             sl->dr = minr(sl->dr, keep * J->a_max / d);
-    }
-    sl->k_vel = BIG;
-    sl->fit_ok = 0u;
-    for (j = 0; j < n; j++) {
-        const ffwd_joint *J = &m->joint[j];
-        const ffwd_real fc = J->coulomb * sgnr(sl->dq[j]), tm = keep * J->tau_max, bb = sl->b[j];
-        const ffwd_real gv = J->viscous * sl->dq[j], d = absr(sl->dq[j]);
+            sl->k_vel = minr(sl->k_vel, keep * J->v_max / d);
+        }
         sl->thi[j] = tm - sl->c[j] - maxr(fc, FR(0));
         sl->tlo[j] = -tm - sl->c[j] - minr(fc, FR(0));
         sl->gv[j] = gv;
@@ -421,8 +422,6 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
             sl->kv[j] = kv;
             sl->fv[j] = bb * (kv * kv) + gv * kv;
         }
-        if (d > FR(0))
-            sl->k_vel = minr(sl->k_vel, keep * J->v_max / d);
     }
     ffwd_zero_(sl->jb[0], FFWD_MAX_DOF);
     ffwd_zero_(sl->jb[1], FFWD_MAX_DOF);

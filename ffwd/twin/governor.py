@@ -543,8 +543,6 @@ class GovernorTwin:
         th (coefficients, constant term first): the quintic Hermite expanded,
         q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5."""
         ds = self.ds
-        keep2 = 1.0 - 2.0 * self.margin
-        jr = [0.0, 0.0, 0.0]
         i1 = 1.0 / ds
         i2 = i1 * i1
         c1, c2 = {}, {}
@@ -580,8 +578,8 @@ class GovernorTwin:
 
     def seg_bounds(self, s0, s1):
         """Bounds of |q'|, |q''|, |q'''| of every jerk-limited joint on the segment from
-        s0 to s1: sums of the absolute coefficients of each polynomial in th on [0, 1]; and the largest ratio of each bound to its
-        joint's jerk limit (twice the margin)."""
+        s0 to s1: sums of the absolute coefficients of each polynomial in th on [0, 1];
+        and the largest ratio of each bound to its joint's jerk limit (twice the margin)."""
         ds = self.ds
         keep2 = 1.0 - 2.0 * self.margin
         jr = [0.0, 0.0, 0.0]
