@@ -19,7 +19,7 @@
 #define ALPHA_TOL FR(1e-12)
 #define REST_TOL FR(1e-12)
 #define GOV_BISECT 4u   /* halvings between the stored plan's u and the step's */
-#define GOV_FIT_ITER 20u  /* halvings of stop_fit_u */
+#define GOV_FIT_ITER 20u  /* stop_fit_u: the width of this many halvings, at most this many steps */
 #define GOV_EXACT_CYCLES 2048u  /* plan D cycles checked one by one at most (pass 2) */
 
 #if defined(__GNUC__) || defined(__clang__)
@@ -758,12 +758,47 @@ static ffwd_real ramp_need(const ffwd_governor *g, ffwd_real u, ffwd_real Vp)
     return dt * (mm * (-u) - h * mm * (mm + FR(1)) / FR(2));
 }
 
+/* Plan D's constants for one simulation: its deceleration D, ramp rate Vp, h = Vp dt
+ * (u's change per cycle), and c = h dt / 2, ih = 1 / h for need_below. */
+typedef struct {
+    ffwd_real dt, D, Vp, h, c, ih;
+} plan_k;
+
+static plan_k plan_consts(const ffwd_governor *g, ffwd_real D, ffwd_real Vp)
+{
+    plan_k P;
+    P.dt = g->cfg.dt;
+    P.D = D;
+    P.Vp = Vp;
+    P.h = Vp * P.dt;
+    P.c = FR(0.5) * P.h * P.dt;
+    P.ih = FR(1) / P.h;
+    return P;
+}
+
+/* kn >= ramp_need(d) (d < 0), mostly without its division and floor: with r = -d / h and
+ * m = floor(r), ramp_need = h dt (m r - m (m + 1) / 2) lies in c [r (r - 1), (r - 1/2)^2]
+ * (the parabola in m between m = r - 1 and m = r), so only a kn within that band
+ * (widened far beyond rounding) needs the exact value: the answer is ramp_need's. */
+static inline int need_below(const ffwd_governor *g, const plan_k *P, ffwd_real kn, ffwd_real d)
+{
+    const ffwd_real r = -d * P->ih;
+    ffwd_real tol;
+    if (r >= FR(1) && r <= FR(1e8)) {
+        tol = FR(1e-9) * (r * r + FR(1));
+        if (kn >= P->c * ((r - FR(0.5)) * (r - FR(0.5)) + tol))
+            return 1;
+        if (kn < P->c * (r * (r - FR(1)) - tol))
+            return 0;
+    }
+    return kn >= ramp_need(g, d, P->Vp);
+}
+
 /* Plan D's u for the next cycle: u ramps at -Vp to -D, holds, and ramps back at +Vp to
  * reach rest (u changes by at most Vp dt a cycle). */
-static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u, ffwd_real D,
-                             ffwd_real Vp)
+static inline ffwd_real plan_act(const ffwd_governor *g, const plan_k *P, ffwd_real kap, ffwd_real u)
 {
-    const ffwd_real dt = g->cfg.dt, h = Vp * dt;
+    const ffwd_real dt = P->dt, h = P->h, D = P->D;
     ffwd_real d, kn;
     if (kap <= FR(0))
         return FR(0);
@@ -771,9 +806,16 @@ static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u,
         return -kap / dt;                       /* rest at the end of this cycle */
     d = u > -D ? maxr(u - h, -D) : minr(u + h, -D);
     kn = kap + d * dt;
-    if (kn > FR(0) && kn >= ramp_need(g, d, Vp))
+    if (kn > FR(0) && (d >= FR(0) || need_below(g, P, kn, d)))
         return d;
     return minr(u + h, FR(0));
+}
+
+static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u, ffwd_real D,
+                             ffwd_real Vp)
+{
+    const plan_k P = plan_consts(g, D, Vp);
+    return plan_act(g, &P, kap, u);
 }
 
 /* Every limit of sample sl (twice the margin) over the box b of states
@@ -923,24 +965,53 @@ static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V,
     return s;
 }
 
+/* How far plan D from the state after a cycle at u overshoots the window's end by its
+ * continuous stop length (<= 0: it fits; rest within the cycle fits, -ds). */
+static ffwd_real stop_gap(const ffwd_governor *g, ffwd_real uc, ffwd_real D, ffwd_real Vp)
+{
+    const ffwd_real dt = g->cfg.dt, send = (ffwd_real)(g->count - 1u) * g->cfg.ds;
+    const ffwd_real kc = g->kappa + uc * dt, sc = g->sigma + g->kappa * dt + FR(0.5) * dt * dt * uc;
+    if (uc < FR(0) && kc <= FR(0))
+        return -g->cfg.ds;
+    return sc + stop_length(kc, uc, D, Vp, NULL) - send;
+}
+
 /* The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp) stops
- * inside the window by its continuous stop length, by bisection (GOV_FIT_ITER halvings;
- * ua if none does): what a full check of plan D can accept at most. */
+ * inside the window by its continuous stop length (ua if none does): what a full check
+ * of plan D can accept at most. The gap grows with u; its root is bracketed and found by
+ * the Illinois variant of the false position (a halving where a step would leave the
+ * bracket), to the width GOV_FIT_ITER halvings would leave, in at most that many steps. */
 static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, ffwd_real D,
                             ffwd_real Vp)
 {
-    const ffwd_real dt = g->cfg.dt, send = (ffwd_real)(g->count - 1u) * g->cfg.ds;
+    ffwd_real fa, fb, w;
     uint32_t it;
-    for (it = 0; it <= GOV_FIT_ITER; it++) {
-        ffwd_real uc = it == 0u ? ub : FR(0.5) * (ua + ub);
-        ffwd_real kc = g->kappa + uc * dt, sc = g->sigma + g->kappa * dt + FR(0.5) * dt * dt * uc;
-        int fit = (uc < FR(0) && kc <= FR(0)) || sc + stop_length(kc, uc, D, Vp, NULL) <= send;
-        if (it == 0u && fit)
-            return ub;
-        if (fit)
-            ua = uc;
-        else
-            ub = uc;
+    int side = 0;
+    fb = stop_gap(g, ub, D, Vp);
+    if (fb <= FR(0))
+        return ub;
+    fa = stop_gap(g, ua, D, Vp);
+    if (fa > FR(0))
+        return ua;                          /* none fits (the gap grows with u) */
+    w = (ub - ua) / (ffwd_real)(1ul << GOV_FIT_ITER);
+    for (it = 0; it < GOV_FIT_ITER && ub - ua > w; it++) {
+        ffwd_real m = ua - fa * ((ub - ua) / (fb - fa)), fm;
+        if (!(m > ua && m < ub))
+            m = FR(0.5) * (ua + ub);
+        fm = stop_gap(g, m, D, Vp);
+        if (fm <= FR(0)) {
+            ua = m;
+            fa = fm;
+            if (side < 0)
+                fb *= FR(0.5);
+            side = -1;
+        } else {
+            ub = m;
+            fb = fm;
+            if (side > 0)
+                fa *= FR(0.5);
+            side = 1;
+        }
     }
     return ua;
 }
@@ -1028,6 +1099,77 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
     return 1;
 }
 
+/* Pass 1 of decel_cycles over a run of cycles that neither start a hold nor come to
+ * rest (the ramps of u): the same steps as its loop without their rarer cases, the state
+ * in registers (R: the loop's state in and out; prev: the run's last cycle). */
+typedef struct {
+    ffwd_real s, k, u, box[4], prev[3];
+    uint32_t cycles, ip, bi;
+    int wide;
+} ramp_state;
+
+static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state *R, ffwd_real send)
+{
+    const ffwd_real dt = P->dt, h = P->h, D = P->D, c = P->c, ih = P->ih, hdt = h * dt;
+    const ffwd_real Ddt = D * dt, dt2 = FR(0.5) * dt * dt, ds = g->cfg.ds;
+    const uint32_t imax = g->count - 2u, cmax = (uint32_t)FFWD_GOV_PLAN_CYCLES;
+    ffwd_real s = R->s, k = R->k, uu = R->u, b0 = R->box[0], b1 = R->box[1], b2 = R->box[2];
+    ffwd_real b3 = R->box[3], ps = FR(0), pk = FR(0), pu = FR(0), d, kn, r;
+    uint32_t cycles = R->cycles, ip = R->ip, bi = R->bi, ib = (uint32_t)(s / ds), c0;
+    int wide = R->wide;
+    ib = ib > imax ? imax : ib;
+/* one cycle at u = d (kn = k + d dt): the box of its segment, the state moves on */
+#define RAMP_CYCLE() do { \
+        cycles++; \
+        wide |= ib > ip + 1u; \
+        ip = ib; \
+        if (ib != bi) { \
+            if (bi != FFWD_GOV_MAX_HORIZON) \
+                box_join(g, bi, b0, b1, b2, b3); \
+            bi = ib; b0 = k; b1 = k; b2 = minr(uu, d); b3 = maxr(uu, d); \
+        } else { \
+            b0 = minr(b0, k); b1 = maxr(b1, k); b2 = minr(b2, minr(uu, d)); b3 = maxr(b3, maxr(uu, d)); \
+        } \
+        ps = s; pk = k; pu = d; \
+        s += k * dt + dt2 * d; \
+        k = kn; \
+        uu = d; \
+        ib = (uint32_t)(s / ds); \
+        ib = ib > imax ? imax : ib; \
+    } while (0)
+    do {
+        c0 = cycles;
+        /* down: u falls by h (d <= -h), kn surely above ramp_need(d): plan_act's d */
+        while (uu > -D && (k > hdt || k > Ddt) && cycles < cmax && s <= send) {
+            d = maxr(uu - h, -D);
+            kn = k + d * dt;
+            r = -d * ih;
+            if (!(r >= FR(1) && r <= FR(1e8) && kn > FR(0)
+                  && kn >= c * ((r - FR(0.5)) * (r - FR(0.5)) + FR(1e-9) * (r * r + FR(1)))))
+                break;
+            RAMP_CYCLE();
+        }
+        /* up: one more fall surely leaves kappa below ramp_need: u rises by h */
+        while (uu > -D && (k > hdt || k > Ddt) && cycles < cmax && s <= send) {
+            d = maxr(uu - h, -D);
+            kn = k + d * dt;
+            r = -d * ih;
+            if (!(kn <= FR(0) || (r >= FR(1) && r <= FR(1e8)
+                                  && kn < c * (r * (r - FR(1)) - FR(1e-9) * (r * r + FR(1))))))
+                break;
+            d = minr(uu + h, FR(0));
+            kn = k + d * dt;
+            if (d < FR(0) && kn <= FR(0))
+                break;                          /* rest in this cycle: decel_cycles */
+            RAMP_CYCLE();
+        }
+    } while (cycles != c0);
+#undef RAMP_CYCLE
+    R->s = s; R->k = k; R->u = uu; R->cycles = cycles; R->ip = ip; R->bi = bi; R->wide = wide;
+    R->box[0] = b0; R->box[1] = b1; R->box[2] = b2; R->box[3] = b3;
+    R->prev[0] = ps; R->prev[1] = pk; R->prev[2] = pu;
+}
+
 /* Plan D's cycles from (sig, kap > 0, u), the middle of a hold as one block. Pass 1
  * records the per-segment boxes and the first and last cycle (returns 2 when a cycle
  * steps over a whole segment: pass 2 is needed); pass 2 checks the joint jerk exactly
@@ -1036,10 +1178,12 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
 static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
                         ffwd_real Vp, int pass)
 {
-    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt;
+    const plan_k P = plan_consts(g, D, Vp);
+    const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt, dt2 = FR(0.5) * dt * dt;
     const ffwd_real send = (ffwd_real)(g->count - 1u) * ds;
     ffwd_real s = sig, k = kap, uu = u;
-    uint32_t cycles = 0, exact = 0, i, ip = 0;
+    ffwd_real bk0 = FR(0), bk1 = FR(0), bu0 = FR(0), bu1 = FR(0);   /* segment bi's box so far */
+    uint32_t cycles = 0, exact = 0, i, ip = 0, bi = FFWD_GOV_MAX_HORIZON;
     int wide = 0, first = 1;
     while (k > FR(0)) {
         ffwd_real un;
@@ -1058,8 +1202,12 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
             if (skip) {
                 ffwd_real mr = (ffwd_real)mk;
                 wide |= i > ip + 1u || k * dt >= ds;   /* a step over a whole segment */
-                if (pass == 1)
+                if (pass == 1) {
+                    if (bi != FFWD_GOV_MAX_HORIZON)
+                        box_join(g, bi, bk0, bk1, bu0, bu1);
+                    bi = FFWD_GOV_MAX_HORIZON;
                     hold_boxes(g, s, k, D, last[0]);
+                }
                 cycles += (uint32_t)mk;
                 s += mr * k * dt - FR(0.5) * D * dt * dt * mr * mr;
                 k -= mr * D * dt;
@@ -1068,19 +1216,32 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
                 continue;
             }
         }
+        if (pass == 1 && !first && uu != -D) {
+            ramp_state R;
+            R.s = s; R.k = k; R.u = uu; R.cycles = cycles; R.ip = ip; R.bi = bi; R.wide = wide;
+            R.box[0] = bk0; R.box[1] = bk1; R.box[2] = bu0; R.box[3] = bu1;
+            ramp_run(g, &P, &R, send);
+            s = R.s; k = R.k; uu = R.u; ip = R.ip; bi = R.bi; wide = R.wide;
+            bk0 = R.box[0]; bk1 = R.box[1]; bu0 = R.box[2]; bu1 = R.box[3];
+            if (R.cycles != cycles)
+                memcpy(g->cyc_prev, R.prev, sizeof R.prev);
+            cycles = R.cycles;
+            if (uu == -D)
+                continue;
+        }
         cycles++;
         if (cycles > (uint32_t)FFWD_GOV_PLAN_CYCLES || s > send)
             return 0;
-        un = plan_action(g, k, uu, D, Vp);
+        un = plan_act(g, &P, k, uu);
         i = seg_of(g, s);
         if (first) {
             g->cyc_first[0] = s;
             g->cyc_first[1] = k;
             g->cyc_first[2] = un;
         } else {
-            const ffwd_real c[3] = { s, k, un };
             wide |= i > ip + 1u;
             if (pass == 2 && (g->box_used[ip] != 2u || i > ip + 1u)) {
+                const ffwd_real c[3] = { s, k, un };
                 if (++exact > GOV_EXACT_CYCLES || !cycles_jerk_ok(g, g->cyc_prev, c))
                     return 0;               /* (past the budget: not vouched for) */
             }
@@ -1090,8 +1251,23 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         g->cyc_prev[2] = un;
         ip = i;
         first = 0;
-        if (pass == 1)   /* the box of kappa and u (this cycle's and the one before) */
-            box_join(g, i, k, k, minr(uu, un), maxr(uu, un));
+        if (pass == 1) {   /* the box of kappa and u (this cycle's and the one before) */
+            const ffwd_real ul = minr(uu, un), uh = maxr(uu, un);
+            if (i != bi) {
+                if (bi != FFWD_GOV_MAX_HORIZON)
+                    box_join(g, bi, bk0, bk1, bu0, bu1);
+                bi = i;
+                bk0 = k;
+                bk1 = k;
+                bu0 = ul;
+                bu1 = uh;
+            } else {
+                bk0 = minr(bk0, k);
+                bk1 = maxr(bk1, k);
+                bu0 = minr(bu0, ul);
+                bu1 = maxr(bu1, uh);
+            }
+        }
         if (un < FR(0) && k + un * dt <= FR(0)) {
             if (-un > Vp * dt * (FR(1) + FR(1e-9)))   /* u drops to 0 at rest: one cycle's change */
                 return 0;
@@ -1099,13 +1275,15 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
             k = FR(0);
             uu = FR(0);
         } else {
-            s += k * dt + FR(0.5) * dt * dt * un;
+            s += k * dt + dt2 * un;
             k += un * dt;
             uu = un;
         }
     }
     if (s > send)
         return 0;
+    if (bi != FFWD_GOV_MAX_HORIZON)
+        box_join(g, bi, bk0, bk1, bu0, bu1);
     memcpy(g->cyc_last, g->cyc_prev, sizeof g->cyc_last);
     return wide ? 2 : 1;
 }

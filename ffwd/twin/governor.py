@@ -28,7 +28,7 @@ BIG = 1e30
 CAP = 1e15
 ALPHA_TOL = 1e-12
 NBISECT = 4            # halvings between the plan's u and the step's
-FIT_ITER = 20          # halvings of stop_fit_u
+FIT_ITER = 20          # stop_fit_u: the width of this many halvings, at most this many steps
 EXACT_CYCLES = 2048    # plan D cycles checked one by one at most (pass 2)
 MAX_PLAN_CYCLES = 100000   # cycles of plan D simulated at most (longer: not vouched for)
 REST_TOL = 1e-12
@@ -555,25 +555,47 @@ class GovernorTwin:
             c2[j] = (w0 * i2, 6.0 * a3 * i2, 12.0 * a4 * i2, 20.0 * a5 * i2)
         return c1, c2
 
+    def stop_gap(self, uc, D, Vp):
+        """How far plan D from the state after a cycle at u overshoots the window's end by
+        its continuous stop length (<= 0: it fits; rest within the cycle fits, -ds)."""
+        dt, send = self.dt, (len(self.window) - 1) * self.ds
+        kc = self.kappa + uc * dt
+        sc = self.sigma + self.kappa * dt + 0.5 * dt * dt * uc
+        if uc < 0.0 and kc <= 0.0:
+            return -self.ds
+        return sc + self.stop_length(kc, uc, D, Vp)[0] - send
+
     def stop_fit_u(self, ua, ub, D, Vp):
         """The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp)
-        stops inside the window by its continuous stop length, by bisection (ua if
-        none does): what a full check of plan D can accept at most."""
-        dt, send = self.dt, (len(self.window) - 1) * self.ds
-
-        def fit(uc):
-            kc = self.kappa + uc * dt
-            sc = self.sigma + self.kappa * dt + 0.5 * dt * dt * uc
-            return (uc < 0.0 and kc <= 0.0) or sc + self.stop_length(kc, uc, D, Vp)[0] <= send
-
-        if fit(ub):
+        stops inside the window by its continuous stop length (ua if none does): what a
+        full check of plan D can accept at most. The gap grows with u: its root is
+        bracketed and found by the Illinois variant of the false position (a halving
+        where a step would leave the bracket), to the width FIT_ITER halvings would
+        leave, in at most FIT_ITER steps."""
+        fb = self.stop_gap(ub, D, Vp)
+        if fb <= 0.0:
             return ub
-        for _ in range(FIT_ITER):
-            mid = 0.5 * (ua + ub)
-            if fit(mid):
-                ua = mid
+        fa = self.stop_gap(ua, D, Vp)
+        if fa > 0.0:
+            return ua                      # none fits
+        w = (ub - ua) / float(1 << FIT_ITER)
+        side, it = 0, 0
+        while it < FIT_ITER and ub - ua > w:
+            m = ua - fa * ((ub - ua) / (fb - fa))
+            if not ua < m < ub:
+                m = 0.5 * (ua + ub)
+            fm = self.stop_gap(m, D, Vp)
+            if fm <= 0.0:
+                ua, fa = m, fm
+                if side < 0:
+                    fb *= 0.5
+                side = -1
             else:
-                ub = mid
+                ub, fb = m, fm
+                if side > 0:
+                    fa *= 0.5
+                side = 1
+            it += 1
         return ua
 
     def seg_bounds(self, s0, s1):
