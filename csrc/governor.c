@@ -153,6 +153,9 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->plan_Vp = FR(0);
     g->try_first = 1u;
     g->try_last = 0u;
+    g->mins_ok = 0u;
+    g->vp_min = BIG;
+    g->dr_min = BIG;
     /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
     reach = cfg->override_max * cfg->dt + FR(0.5) * cfg->rate_max * cfg->dt * cfg->dt;
     g->pieces = 1;
@@ -431,6 +434,8 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     sl->jr[2] = FR(0);
     if (g->count > 0u)
         seg_bounds(g, slot_at(g, g->count - 1u), sl);
+    g->vp_min = minr(g->vp_min, sl->vp);
+    g->dr_min = minr(g->dr_min, sl->dr);
     g->count++;
     g->pushed++;
     g->dirty = 1;
@@ -1102,6 +1107,25 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
 /* Pass 1 of decel_cycles over a run of cycles that neither start a hold nor come to
  * rest (the ramps of u): the same steps as its loop without their rarer cases, the state
  * in registers (R: the loop's state in and out; prev: the run's last cycle). */
+/* box_join without a call (in the loop of ramp_run: no registers spilled around it) */
+static inline void box_flush(ffwd_governor *g, uint32_t i, ffwd_real kl, ffwd_real kh, ffwd_real ul,
+                             ffwd_real uh)
+{
+    ffwd_real *b = g->box[i];
+    if (!g->box_used[i]) {
+        g->box_used[i] = 1;
+        b[0] = kl;
+        b[1] = kh;
+        b[2] = ul;
+        b[3] = uh;
+    } else {
+        b[0] = minr(b[0], kl);
+        b[1] = maxr(b[1], kh);
+        b[2] = minr(b[2], ul);
+        b[3] = maxr(b[3], uh);
+    }
+}
+
 typedef struct {
     ffwd_real s, k, u, box[4], prev[3];
     uint32_t cycles, ip, bi;
@@ -1110,64 +1134,100 @@ typedef struct {
 
 static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state *R, ffwd_real send)
 {
-    const ffwd_real dt = P->dt, h = P->h, D = P->D, c = P->c, ih = P->ih, hdt = h * dt;
-    const ffwd_real Ddt = D * dt, dt2 = FR(0.5) * dt * dt, ds = g->cfg.ds;
+    const ffwd_real dt = P->dt, h = P->h, D = P->D, c = P->c, ih = P->ih;
+    const ffwd_real kmin = minr(h * dt, D * dt), dt2 = FR(0.5) * dt * dt, ds = g->cfg.ds;
+    /* the band of need_below, widened to 2e-9 r^2 >= 1e-9 (r^2 + 1) for r >= 1 */
+    const ffwd_real wa = FR(1) + FR(2e-9), wb = FR(1) - FR(2e-9);
     const uint32_t imax = g->count - 2u, cmax = (uint32_t)FFWD_GOV_PLAN_CYCLES;
     ffwd_real s = R->s, k = R->k, uu = R->u, b0 = R->box[0], b1 = R->box[1], b2 = R->box[2];
-    ffwd_real b3 = R->box[3], ps = FR(0), pk = FR(0), pu = FR(0), d, kn, r;
-    uint32_t cycles = R->cycles, ip = R->ip, bi = R->bi, ib = (uint32_t)(s / ds), c0;
+    ffwd_real b3 = R->box[3], ps = FR(0), d, kn, r, k1 = FR(0), u1 = FR(0), dl = FR(0), kl = FR(0);
+    uint32_t cycles = R->cycles, ip = R->ip, bi = R->bi, ib = (uint32_t)(s / ds), c0, n;
     int wide = R->wide;
+    if (!(D * ih <= FR(1e8)))
+        return;                                 /* (r up to 1e8 below: ramp_need's m is not capped) */
     ib = ib > imax ? imax : ib;
-/* one cycle at u = d (kn = k + d dt): the box of its segment, the state moves on */
-#define RAMP_CYCLE() do { \
-        cycles++; \
-        wide |= ib > ip + 1u; \
-        ip = ib; \
-        if (ib != bi) { \
-            if (bi != FFWD_GOV_MAX_HORIZON) \
-                box_join(g, bi, b0, b1, b2, b3); \
-            bi = ib; b0 = k; b1 = k; b2 = minr(uu, d); b3 = maxr(uu, d); \
-        } else { \
-            b0 = minr(b0, k); b1 = maxr(b1, k); b2 = minr(b2, minr(uu, d)); b3 = maxr(b3, maxr(uu, d)); \
+    /* Along a run kappa falls (d < 0, or d <= 0 rising to 0) and u moves one way, so a
+     * segment's cycles in it span kappa [kl, k1] (last, first) and u from u1 (the u
+     * before its first) to dl (its last): joined to the box when the segment changes.
+     * With ip the last cycle's segment, the first cycle of a run joins bi's box when it
+     * is in bi (ip = bi then). */
+#define RAMP_SEG(up) do { \
+        if (n > 0u) { \
+            const ffwd_real lo = (up) ? u1 : dl, hi = (up) ? dl : u1; \
+            if (bi == ip && bi != FFWD_GOV_MAX_HORIZON) { \
+                b0 = minr(b0, kl); b1 = maxr(b1, k1); b2 = minr(b2, lo); b3 = maxr(b3, hi); \
+            } else { \
+                if (bi != FFWD_GOV_MAX_HORIZON) \
+                    box_flush(g, bi, b0, b1, b2, b3); \
+                bi = ip; b0 = kl; b1 = k1; b2 = lo; b3 = hi; \
+            } \
         } \
-        ps = s; pk = k; pu = d; \
-        s += k * dt + dt2 * d; \
-        k = kn; \
-        uu = d; \
-        ib = (uint32_t)(s / ds); \
-        ib = ib > imax ? imax : ib; \
     } while (0)
     do {
         c0 = cycles;
         /* down: u falls by h (d <= -h), kn surely above ramp_need(d): plan_act's d */
-        while (uu > -D && (k > hdt || k > Ddt) && cycles < cmax && s <= send) {
+        n = 0;
+        while (uu > -D && k > kmin && cycles < cmax && s <= send) {
             d = maxr(uu - h, -D);
             kn = k + d * dt;
             r = -d * ih;
-            if (!(r >= FR(1) && r <= FR(1e8) && kn > FR(0)
-                  && kn >= c * ((r - FR(0.5)) * (r - FR(0.5)) + FR(1e-9) * (r * r + FR(1)))))
+            if (!(r >= FR(1) && kn >= c * ((wa * r - FR(1)) * r + FR(0.25))))
                 break;
-            RAMP_CYCLE();
+            if (ib != ip || n == 0u) {          /* a new segment (or the run's first cycle) */
+                RAMP_SEG(0);
+                wide |= ib > ip + 1u;
+                ip = ib;
+                k1 = k;
+                u1 = uu;
+            }
+            n++;
+            cycles++;
+            kl = k;
+            dl = d;
+            ps = s;
+            s += k * dt + dt2 * d;
+            k = kn;
+            uu = d;
+            ib = (uint32_t)(s / ds);
+            ib = ib > imax ? imax : ib;
         }
+        RAMP_SEG(0);
         /* up: one more fall surely leaves kappa below ramp_need: u rises by h */
-        while (uu > -D && (k > hdt || k > Ddt) && cycles < cmax && s <= send) {
+        n = 0;
+        while (uu > -D && k > kmin && cycles < cmax && s <= send) {
             d = maxr(uu - h, -D);
             kn = k + d * dt;
             r = -d * ih;
-            if (!(kn <= FR(0) || (r >= FR(1) && r <= FR(1e8)
-                                  && kn < c * (r * (r - FR(1)) - FR(1e-9) * (r * r + FR(1))))))
+            if (!(kn <= FR(0) || (r >= FR(1) && kn < c * ((wb * r - FR(1)) * r))))
                 break;
             d = minr(uu + h, FR(0));
             kn = k + d * dt;
             if (d < FR(0) && kn <= FR(0))
                 break;                          /* rest in this cycle: decel_cycles */
-            RAMP_CYCLE();
+            if (ib != ip || n == 0u) {
+                RAMP_SEG(1);
+                wide |= ib > ip + 1u;
+                ip = ib;
+                k1 = k;
+                u1 = uu;
+            }
+            n++;
+            cycles++;
+            kl = k;
+            dl = d;
+            ps = s;
+            s += k * dt + dt2 * d;
+            k = kn;
+            uu = d;
+            ib = (uint32_t)(s / ds);
+            ib = ib > imax ? imax : ib;
         }
+        RAMP_SEG(1);
     } while (cycles != c0);
-#undef RAMP_CYCLE
+#undef RAMP_SEG
     R->s = s; R->k = k; R->u = uu; R->cycles = cycles; R->ip = ip; R->bi = bi; R->wide = wide;
     R->box[0] = b0; R->box[1] = b1; R->box[2] = b2; R->box[3] = b3;
-    R->prev[0] = ps; R->prev[1] = pk; R->prev[2] = pu;
+    R->prev[0] = ps; R->prev[1] = kl; R->prev[2] = dl;
 }
 
 /* Plan D's cycles from (sig, kap > 0, u), the middle of a hold as one block. Pass 1
@@ -1594,16 +1654,16 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
      * distance covered while u swings through its range (jerk-bounded anticipation) */
     look = g->sigma + kap * (maxr(g->u, FR(0)) / V + dt);
     xa = s0->x_safe + th * (s1->x_safe - s0->x_safe);
-    for (k = 1; k < g->cfg.horizon; k++) {
-        if (k < g->count) {
-            ffwd_real Sk = (ffwd_real)k * ds;
-            ffwd_real Xk = slot_at(g, k)->x_safe;
-            if (Sk <= look) {
-                xa = minr(xa, Xk);
-            } else if (Sk - ds < look) {
-                ffwd_real Xp = slot_at(g, k - 1u)->x_safe;
-                xa = minr(xa, Xp + (look - (Sk - ds)) / ds * (Xk - Xp));
-            }
+    for (k = 1; k < g->count; k++) {     /* (Sk and Sk - ds grow with k: later k add nothing) */
+        ffwd_real Sk = (ffwd_real)k * ds;
+        ffwd_real Xk = slot_at(g, k)->x_safe;
+        if (Sk <= look) {
+            xa = minr(xa, Xk);
+        } else if (Sk - ds < look) {
+            ffwd_real Xp = slot_at(g, k - 1u)->x_safe;
+            xa = minr(xa, Xp + (look - (Sk - ds)) / ds * (Xk - Xp));
+        } else {
+            break;
         }
     }
     kt = minr(cmd, sqrt0(minr(xa, xss)));
@@ -1611,12 +1671,17 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         flags |= FFWD_GOV_CAPPED;
     /* (b), (d): jerk-bounded approach of the target */
     e = kt - kap;
-    Vp = V;
-    Dr = U;
-    for (k = 0; k < g->count; k++) {
-        Vp = minr(Vp, slot_at(g, k)->vp);   /* ramp rate of plan D */
-        Dr = minr(Dr, slot_at(g, k)->dr);   /* its largest deceleration */
+    if (!g->mins_ok) {          /* the window's least vp and dr (kept by push and the pops) */
+        g->vp_min = BIG;
+        g->dr_min = BIG;
+        for (k = 0; k < g->count; k++) {
+            g->vp_min = minr(g->vp_min, slot_at(g, k)->vp);
+            g->dr_min = minr(g->dr_min, slot_at(g, k)->dr);
+        }
+        g->mins_ok = 1u;
     }
+    Vp = minr(V, g->vp_min);    /* ramp rate of plan D */
+    Dr = minr(U, g->dr_min);    /* its largest deceleration */
     /* largest |u| that still lets u ramp back to 0 at rate Vp (what the joint jerk limits
      * allow in the window, at most V) without passing the target */
     ud = minr(U, FR(2) * absr(e) / (sqrt0(dt * dt + FR(2) * absr(e) / Vp) + dt));
@@ -1742,7 +1807,10 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         sig = send;
     for (k = 0; k <= g->pieces; k++) {
         if (g->count > 1u && sig >= ds) {
+            const ffwd_gov_slot *gone = slot_at_c(g, 0);
             sig -= ds;
+            if (gone->vp == g->vp_min || gone->dr == g->dr_min)
+                g->mins_ok = 0u;
             g->head = (g->head + 1u) % g->cfg.horizon;
             g->count--;
             g->base++;

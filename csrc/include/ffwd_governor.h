@@ -131,6 +131,8 @@ typedef struct ffwd_governor {
     uint32_t any_jerk;      /* a joint has a jerk limit */
     ffwd_real plan_D, plan_Vp;  /* plan D: deceleration and ramp rate */
     uint32_t try_first, try_last;  /* the samples the fastest stop tried last wrote */
+    ffwd_real vp_min, dr_min;   /* the least vp and dr of the window's samples (mins_ok 1: */
+    uint32_t mins_ok;           /* kept; 0: to be found again) */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
     /* scratch of the plan D check: per window segment the box of the plan's states
      * (kappa low, high, u low, high) and whether a cycle starts there (box_used 1; 2:
