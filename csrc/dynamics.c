@@ -207,26 +207,36 @@ static int e0_kind(const ffwd_real *K)
     return (int)k;
 }
 
+/* Inverse dynamics state of every body, entry by entry (structure of arrays): entry e of
+ * body i at IDS(w)[e ID_ST + i], e = 0..2 w, 3..5 wd, 6..8 al, 9..11 f, 12..14 n, in the
+ * per-call AUX area (spatial.h). Bodies 2k and 2k + 1 sit side by side, so that one
+ * vector load or store moves an entry of both. */
+#define ID_ST (((uint32_t)FFWD_MAX_DOF + 1u) & ~1u)
+#define IDS(w) ((w)->scratch + FFWD_OFF_A)
+#define IE(e) ((uint32_t)(e) * ID_ST)
+typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1];
+
 /* Lanes of the body-force step of id_pass: two bodies at once where the target has
  * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
- * a scalar FPU). LANE_LOAD / LANE_STORE move entry k between the lanes and the bodies. */
+ * a scalar FPU). LANE_LOAD moves entry e of the state S (IDS, at the first body) into
+ * the lanes, LANE_STORE back, LANE_K parameter k of the bodies' constants K0, K1. */
 #if defined(__SSE2__) || defined(__ARM_NEON)
 #define FORCE_LANES 2
-#define LANE_LOAD(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
-#define LANE_STORE(p0, p1, k, x) ((p0)[k] = (x)[0], (p1)[k] = (x)[1])
+#define LANE_K(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
 #else
 #define FORCE_LANES 1
-#define LANE_LOAD(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
-#define LANE_STORE(p0, p1, k, x) ((void)(p1), (p0)[k] = (x)[0])
+#define LANE_K(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
 #endif
+#define LANE_LOAD(x, S, e) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (x)[l_] = (S)[IE(e) + (uint32_t)l_]; } while (0)
+#define LANE_STORE(S, e, x) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (S)[IE(e) + (uint32_t)l_] = (x)[l_]; } while (0)
 
-/* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
- * and J(l) (in K(l)): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial
- * vector of Om J - (Om J)^T into 27.
+/* The body forces of id_pass, lane l from the state S (w, wd, al; see IDS) and th, J of
+ * K(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h and n = h x al + the axial vector of
+ * Om J - (Om J)^T, into S (f, n).
  * The bodies are independent, so every line is the same operation on each lane (one
- * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
+ * vector instruction for both); K0 and K1 may be the same body. Out of line: one copy
  * of the code, with its own registers. */
-static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *K0, const ffwd_real *K1)
+static FFWD_NOINLINE void body_forces(ffwd_real *S, const ffwd_real *K0, const ffwd_real *K1)
 {
     const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
     ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
@@ -240,10 +250,10 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
     ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
     ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
     int l;
-    LANE_LOAD(M, t0, t1, 0); LANE_LOAD(h0, t0, t1, 1); LANE_LOAD(h1, t0, t1, 2); LANE_LOAD(h2, t0, t1, 3);
-    LANE_LOAD(a0, B0, B1, 18); LANE_LOAD(a1, B0, B1, 19); LANE_LOAD(a2, B0, B1, 20);
-    LANE_LOAD(w0, B0, B1, 12); LANE_LOAD(w1, B0, B1, 13); LANE_LOAD(w2, B0, B1, 14);
-    LANE_LOAD(d0, B0, B1, 15); LANE_LOAD(d1, B0, B1, 16); LANE_LOAD(d2, B0, B1, 17);
+    LANE_K(M, t0, t1, 0); LANE_K(h0, t0, t1, 1); LANE_K(h1, t0, t1, 2); LANE_K(h2, t0, t1, 3);
+    LANE_LOAD(w0, S, 0); LANE_LOAD(w1, S, 1); LANE_LOAD(w2, S, 2);
+    LANE_LOAD(d0, S, 3); LANE_LOAD(d1, S, 4); LANE_LOAD(d2, S, 5);
+    LANE_LOAD(a0, S, 6); LANE_LOAD(a1, S, 7); LANE_LOAD(a2, S, 8);
     for (l = 0; l < FORCE_LANES; l++) {
         /* Om = [wd]x + [w]x [w]x */
         const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
@@ -254,8 +264,8 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
         O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
         O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
     }
-    LANE_LOAD(Jxx, J0, J1, 0); LANE_LOAD(Jxy, J0, J1, 1); LANE_LOAD(Jxz, J0, J1, 2);
-    LANE_LOAD(Jyy, J0, J1, 3); LANE_LOAD(Jyz, J0, J1, 4); LANE_LOAD(Jzz, J0, J1, 5);
+    LANE_K(Jxx, J0, J1, 0); LANE_K(Jxy, J0, J1, 1); LANE_K(Jxz, J0, J1, 2);
+    LANE_K(Jyy, J0, J1, 3); LANE_K(Jyz, J0, J1, 4); LANE_K(Jzz, J0, J1, 5);
     for (l = 0; l < FORCE_LANES; l++) {
         /* the off-diagonal entries mjk of Om J (Om rows O0..O2, O3..O5, O6..O8) */
         const ffwd_real m01 = O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l];
@@ -271,8 +281,8 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
         n1[l] = (h2[l] * a0[l] - h0[l] * a2[l]) + m02 - m20;
         n2[l] = (h0[l] * a1[l] - h1[l] * a0[l]) + m10 - m01;
     }
-    LANE_STORE(B0, B1, 24, f0); LANE_STORE(B0, B1, 25, f1); LANE_STORE(B0, B1, 26, f2);
-    LANE_STORE(B0, B1, 27, n0); LANE_STORE(B0, B1, 28, n1); LANE_STORE(B0, B1, 29, n2);
+    LANE_STORE(S, 9, f0); LANE_STORE(S, 10, f1); LANE_STORE(S, 11, f2);
+    LANE_STORE(S, 12, n0); LANE_STORE(S, 13, n1); LANE_STORE(S, 14, n2);
 }
 
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
@@ -285,52 +295,53 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
  * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
- * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
+ * State in IDS; p of a prismatic joint at B(i) + 9. */
 static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                    const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
+    ffwd_real *const ids = IDS(w);
     const uint32_t n = m->dof;
     uint32_t i;
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
-        ffwd_real *B = BODY(w, i);
+        ffwd_real *S = ids + i;
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         ffwd_real c, s, dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
-            const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
+            const ffwd_real *P = ids + J->parent, *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
-            const ffwd_real t0 = P[13] * p2 - P[14] * p1, t1 = P[14] * p0 - P[12] * p2;
-            const ffwd_real t2 = P[12] * p1 - P[13] * p0;
-            x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
-            x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
-            x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
+            const ffwd_real t0 = P[IE(1)] * p2 - P[IE(2)] * p1, t1 = P[IE(2)] * p0 - P[IE(0)] * p2;
+            const ffwd_real t2 = P[IE(0)] * p1 - P[IE(1)] * p0;
+            x0 = P[IE(6)] + (P[IE(4)] * p2 - P[IE(5)] * p1) + (P[IE(1)] * t2 - P[IE(2)] * t1);
+            x1 = P[IE(7)] + (P[IE(5)] * p0 - P[IE(3)] * p2) + (P[IE(2)] * t0 - P[IE(0)] * t2);
+            x2 = P[IE(8)] + (P[IE(3)] * p1 - P[IE(4)] * p0) + (P[IE(0)] * t1 - P[IE(1)] * t0);
             c = cb[i];
             s = sb[i];
             switch (kind) {
             case FFWD_KIND_I:
-                RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
-                RZT(c, s, P[15], P[16], P[17], d0, d1, d2);
+                RZT(c, s, P[IE(0)], P[IE(1)], P[IE(2)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], P[IE(4)], P[IE(5)], d0, d1, d2);
                 RZT(c, s, x0, x1, x2, a0, a1, a2);
                 break;
             case FFWD_KIND_P90:
-                RZT(c, s, P[12], P[14], -P[13], w0, w1, w2);
-                RZT(c, s, P[15], P[17], -P[16], d0, d1, d2);
+                RZT(c, s, P[IE(0)], P[IE(2)], -P[IE(1)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], P[IE(5)], -P[IE(4)], d0, d1, d2);
                 RZT(c, s, x0, x2, -x1, a0, a1, a2);
                 break;
             case FFWD_KIND_M90:
-                RZT(c, s, P[12], -P[14], P[13], w0, w1, w2);
-                RZT(c, s, P[15], -P[17], P[16], d0, d1, d2);
+                RZT(c, s, P[IE(0)], -P[IE(2)], P[IE(1)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], -P[IE(5)], P[IE(4)], d0, d1, d2);
                 RZT(c, s, x0, -x2, x1, a0, a1, a2);
                 break;
             case FFWD_KIND_RX: {
                 ffwd_real u0, u1, u2;
-                RXT(K, P[12], P[13], P[14], u0, u1, u2);
+                RXT(K, P[IE(0)], P[IE(1)], P[IE(2)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, w0, w1, w2);
-                RXT(K, P[15], P[16], P[17], u0, u1, u2);
+                RXT(K, P[IE(3)], P[IE(4)], P[IE(5)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, d0, d1, d2);
                 RXT(K, x0, x1, x2, u0, u1, u2);
                 RZT(c, s, u0, u1, u2, a0, a1, a2);
@@ -338,9 +349,9 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             }
             default: {
                 ffwd_real u0, u1, u2;
-                GENT(K, P[12], P[13], P[14], u0, u1, u2);
+                GENT(K, P[IE(0)], P[IE(1)], P[IE(2)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, w0, w1, w2);
-                GENT(K, P[15], P[16], P[17], u0, u1, u2);
+                GENT(K, P[IE(3)], P[IE(4)], P[IE(5)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, d0, d1, d2);
                 GENT(K, x0, x1, x2, u0, u1, u2);
                 RZT(c, s, u0, u1, u2, a0, a1, a2);
@@ -366,39 +377,43 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             /* al += 2 w x e_z dq + e_z ddq */
             a0 += FR(2) * w1 * dq; a1 -= FR(2) * w0 * dq; a2 += ddq;
         }
-        B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
-        B[18] = a0; B[19] = a1; B[20] = a2;
+        S[IE(0)] = w0; S[IE(1)] = w1; S[IE(2)] = w2; S[IE(3)] = d0; S[IE(4)] = d1; S[IE(5)] = d2;
+        S[IE(6)] = a0; S[IE(7)] = a1; S[IE(8)] = a2;
     }
     {
-        /* FORCE_LANES bodies at a time; an odd last body twice (lanes of the same body) */
-        ffwd_real *B = BODY(w, 0);
+        /* FORCE_LANES bodies at a time; an odd last body twice (copied into the free
+         * second lane) */
         const ffwd_real *K = KONST(w, 0);
         const uint32_t k = FORCE_LANES > 1 ? 1u : 0u;
         for (i = 0; i + k < n; i += (uint32_t)FORCE_LANES) {
-            body_forces(B, B + k * FFWD_B_STRIDE, K, K + k * FFWD_K_STRIDE);
-            B += FORCE_LANES * FFWD_B_STRIDE;
+            body_forces(ids + i, K, K + k * FFWD_K_STRIDE);
             K += FORCE_LANES * FFWD_K_STRIDE;
         }
-        if (i < n)
-            body_forces(B, B, K, K);
+        if (i < n) {
+            ffwd_real *S = ids + i;
+            uint32_t e;
+            for (e = 0; e < 9u; e++)
+                S[IE(e) + 1u] = S[IE(e)];
+            body_forces(S, K, K);
+        }
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
-        const ffwd_real *B = BODY(w, i);
+        const ffwd_real *S = ids + i;
         const int rev = J->type == FFWD_REVOLUTE;
-        ffwd_real t = rev ? B[29] : B[26];
+        ffwd_real t = rev ? S[IE(14)] : S[IE(11)];
         if (drive)
             t += J->armature * qdd[i] + friction_torque(J, qd[i]);
         tau[i] = t;
         acc |= exp_bits(t);
         if (J->parent >= 0) {
             const ffwd_real *K = KONST(w, i);
-            const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
+            const ffwd_real *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const int kind = e0_kind(K);
             const ffwd_real c = cb[i], s = sb[i];
-            ffwd_real *P = BODY(w, J->parent), f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
-            RZ(c, s, B[24], B[25], B[26], u0, u1, u2);
-            RZ(c, s, B[27], B[28], B[29], v0, v1, v2);
+            ffwd_real *P = ids + J->parent, f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
+            RZ(c, s, S[IE(9)], S[IE(10)], S[IE(11)], u0, u1, u2);
+            RZ(c, s, S[IE(12)], S[IE(13)], S[IE(14)], v0, v1, v2);
             switch (kind) {
             case FFWD_KIND_I:
                 f0 = u0; f1 = u1; f2 = u2; n0 = v0; n1 = v1; n2 = v2;
@@ -418,10 +433,10 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                 GENM(K, v0, v1, v2, n0, n1, n2);
                 break;
             }
-            P[24] += f0; P[25] += f1; P[26] += f2;
-            P[27] += n0 + p[1] * f2 - p[2] * f1;
-            P[28] += n1 + p[2] * f0 - p[0] * f2;
-            P[29] += n2 + p[0] * f1 - p[1] * f0;
+            P[IE(9)] += f0; P[IE(10)] += f1; P[IE(11)] += f2;
+            P[IE(12)] += n0 + p[1] * f2 - p[2] * f1;
+            P[IE(13)] += n1 + p[2] * f0 - p[0] * f2;
+            P[IE(14)] += n2 + p[0] * f1 - p[1] * f0;
         }
     }
     return finite_bits(acc);
