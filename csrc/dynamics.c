@@ -285,6 +285,14 @@ static FFWD_NOINLINE void body_forces(ffwd_real *S, const ffwd_real *K0, const f
     LANE_STORE(S, 12, n0); LANE_STORE(S, 13, n1); LANE_STORE(S, 14, n2);
 }
 
+/* force f, torque n of a child (parent's axes, about the child's origin p) added to
+ * the parent's state P (IDS) */
+#define ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2) do { \
+    (P)[IE(9)] += (f0); (P)[IE(10)] += (f1); (P)[IE(11)] += (f2); \
+    (P)[IE(12)] += (n0) + ((p)[1] * (f2) - (p)[2] * (f1)); \
+    (P)[IE(13)] += (n1) + ((p)[2] * (f0) - (p)[0] * (f2)); \
+    (P)[IE(14)] += (n2) + ((p)[0] * (f1) - (p)[1] * (f0)); } while (0)
+
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
  * linear acceleration al of each frame origin; base acceleration -g): w, wd, al outward,
  * then the body forces (body_forces, two bodies at a time), then the forces summed
@@ -414,29 +422,29 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             ffwd_real *P = ids + J->parent, f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
             RZ(c, s, S[IE(9)], S[IE(10)], S[IE(11)], u0, u1, u2);
             RZ(c, s, S[IE(12)], S[IE(13)], S[IE(14)], v0, v1, v2);
+            /* E0 by its kind, then f and n + p x f into the parent (a sign flip of a
+             * moved entry becomes a subtraction: no join, no negation) */
             switch (kind) {
             case FFWD_KIND_I:
-                f0 = u0; f1 = u1; f2 = u2; n0 = v0; n1 = v1; n2 = v2;
+                ADD_TO_PARENT(P, p, u0, u1, u2, v0, v1, v2);
                 break;
             case FFWD_KIND_P90:
-                f0 = u0; f1 = -u2; f2 = u1; n0 = v0; n1 = -v2; n2 = v1;
+                ADD_TO_PARENT(P, p, u0, -u2, u1, v0, -v2, v1);
                 break;
             case FFWD_KIND_M90:
-                f0 = u0; f1 = u2; f2 = -u1; n0 = v0; n1 = v2; n2 = -v1;
+                ADD_TO_PARENT(P, p, u0, u2, -u1, v0, v2, -v1);
                 break;
             case FFWD_KIND_RX:
                 RXM(K, u0, u1, u2, f0, f1, f2);
                 RXM(K, v0, v1, v2, n0, n1, n2);
+                ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2);
                 break;
             default:
                 GENM(K, u0, u1, u2, f0, f1, f2);
                 GENM(K, v0, v1, v2, n0, n1, n2);
+                ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2);
                 break;
             }
-            P[IE(9)] += f0; P[IE(10)] += f1; P[IE(11)] += f2;
-            P[IE(12)] += n0 + p[1] * f2 - p[2] * f1;
-            P[IE(13)] += n1 + p[2] * f0 - p[0] * f2;
-            P[IE(14)] += n2 + p[0] * f1 - p[1] * f0;
         }
     }
     return finite_bits(acc);
