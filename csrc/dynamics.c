@@ -20,45 +20,20 @@
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
 #define AUX(w, i) ((w)->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)(i))
 #define KONST(w, i) ((w)->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)(i))
-#define TRIG_Q(w) ((w)->scratch + FFWD_OFF_TRIG)
+#define TRIG_ZERO(w) ((w)->scratch + FFWD_OFF_TRIG)
 #define TRIG_S(w) ((w)->scratch + FFWD_OFF_TRIG + FFWD_TRIG_STRIDE)
 #define TRIG_C(w) ((w)->scratch + FFWD_OFF_TRIG + 2 * FFWD_TRIG_STRIDE)
 
 /* sin, cos of theta = q + alpha (revolute) or alpha (prismatic) of every joint, two at a
- * time; p = p' + q E0 e_z of every prismatic joint. The sum of q^2 rides along: the
- * entry test of q (spatial.h) at two products and sums per joint. */
+ * time (ffwd_sincos_joints_); p = p' + q E0 e_z of every prismatic joint. The sum of q^2
+ * rides along: the entry test of q (spatial.h; the last q of an odd count counted twice,
+ * which only makes the test stricter). */
 int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
-    ffwd_real *qb = TRIG_Q(w);
     const ffwd_real *al = w->scratch + FFWD_OFF_ALPHA, *rv = al + FFWD_MAX_DOF;
     const uint32_t n = m->dof;
     uint32_t i;
-    ffwd_real ss0 = FR(0), ss1 = FR(0);
-#ifdef FFWD_SINGLE
-    /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
-     * sin/cos of q, then the offset by the angle-sum formulas below */
-    (void)al;
-    for (i = 0; i < n; i++) {
-        qb[i] = rv[i] * q[i];
-        ss0 += q[i] * q[i];
-    }
-#else
-    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
-     * time (one vector instruction each where the target has two-lane vectors) */
-    for (i = 0; i + 1u < n; i += 2u) {
-        const ffwd_real q0 = q[i], q1 = q[i + 1u];
-        qb[i] = rv[i] * q0 + al[i];
-        qb[i + 1u] = rv[i + 1u] * q1 + al[i + 1u];
-        ss0 += q0 * q0;
-        ss1 += q1 * q1;
-    }
-    if (n & 1u) {
-        const ffwd_real q0 = q[n - 1u];
-        qb[n - 1u] = rv[n - 1u] * q0 + al[n - 1u];
-        ss0 += q0 * q0;
-    }
-#endif
-    qb[n] = FR(0);
+    ffwd_real ss;
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
         for (i = 0; i < n; i++) {
             if (m->joint[i].type != FFWD_REVOLUTE) {
@@ -70,8 +45,11 @@ int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
             }
         }
     }
-    ffwd_sincos_pairs_(qb, TRIG_S(w), TRIG_C(w), (n + 1u) / 2u);
 #ifdef FFWD_SINGLE
+    /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
+     * sin/cos of q (offsets from the row of zeros), then the offset by the angle-sum
+     * formulas */
+    ss = ffwd_sincos_joints_(q, rv, TRIG_ZERO(w), TRIG_S(w), TRIG_C(w), n);
     for (i = 0; i < n; i++) {
         const ffwd_real *K = KONST(w, i), ca = K[FFWD_K_CA], sa = K[FFWD_K_SA];
         ffwd_real *sp = TRIG_S(w) + i, *cp = TRIG_C(w) + i;
@@ -79,8 +57,11 @@ int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
         *sp = sq * ca + cq * sa;
         *cp = cq * ca - sq * sa;
     }
+#else
+    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20 */
+    ss = ffwd_sincos_joints_(q, rv, al, TRIG_S(w), TRIG_C(w), n);
 #endif
-    return ss0 + ss1 < FFWD_Q_MAX_ * FFWD_Q_MAX_;
+    return ss < FFWD_Q_MAX_ * FFWD_Q_MAX_;
 }
 
 /* R = E0 Rz(theta) and p of every body */
@@ -632,7 +613,7 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         (void)ffwd_trig_(m, w, q);
     }
     ffwd_tool_body_(m, w);
-    zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
+    zn = TRIG_ZERO(w);  /* dof zeros (the row of zeros, spatial.h FFWD_OFF_TRIG) */
     ffwd_zero_(zn, m->dof);
     (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
     (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
