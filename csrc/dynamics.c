@@ -217,53 +217,59 @@ typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1
  * The bodies are independent, so every line is the same operation on each lane (one
  * vector instruction for both); K0 and K1 may be the same body. Out of line: one copy
  * of the code, with its own registers. */
-static FFWD_NOINLINE void body_forces(ffwd_real *S, const ffwd_real *K0, const ffwd_real *K1)
+static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32_t n)
 {
-    const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
-    ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
-    ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
-    ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
-    ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
-    ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
-    ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
-    ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
-    ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
-    ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
-    ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
-    int l;
-    LANE_K(M, t0, t1, 0); LANE_K(h0, t0, t1, 1); LANE_K(h1, t0, t1, 2); LANE_K(h2, t0, t1, 3);
-    LANE_LOAD(w0, S, 0); LANE_LOAD(w1, S, 1); LANE_LOAD(w2, S, 2);
-    LANE_LOAD(d0, S, 3); LANE_LOAD(d1, S, 4); LANE_LOAD(d2, S, 5);
-    LANE_LOAD(a0, S, 6); LANE_LOAD(a1, S, 7); LANE_LOAD(a2, S, 8);
-    for (l = 0; l < FORCE_LANES; l++) {
-        /* Om = [wd]x + [w]x [w]x */
-        const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
-        const ffwd_real ww = x0 + x1 + x2;
-        const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
-        O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
-        O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
-        O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
-        O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+    uint32_t i;
+    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
+        ffwd_real *S = ids + i;
+        const ffwd_real *K0 = K + FFWD_K_STRIDE * i, *K1 = i + 1u < n ? K0 + FFWD_K_STRIDE : K0;
+        const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
+        ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
+        ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
+        ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
+        ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
+        ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
+        ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
+        ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
+        ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
+        ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
+        ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
+        int l;
+        LANE_K(M, t0, t1, 0); LANE_K(h0, t0, t1, 1); LANE_K(h1, t0, t1, 2); LANE_K(h2, t0, t1, 3);
+        LANE_LOAD(w0, S, 0); LANE_LOAD(w1, S, 1); LANE_LOAD(w2, S, 2);
+        LANE_LOAD(d0, S, 3); LANE_LOAD(d1, S, 4); LANE_LOAD(d2, S, 5);
+        LANE_LOAD(a0, S, 6); LANE_LOAD(a1, S, 7); LANE_LOAD(a2, S, 8);
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* Om = [wd]x + [w]x [w]x */
+            const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
+            const ffwd_real ww = x0 + x1 + x2;
+            const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
+            O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
+            O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
+            O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
+            O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+        }
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* f = M al + Om h, and h x al (mass and first moment are done with then) */
+            f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
+            f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
+            f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
+            n0[l] = h1[l] * a2[l] - h2[l] * a1[l];
+            n1[l] = h2[l] * a0[l] - h0[l] * a2[l];
+            n2[l] = h0[l] * a1[l] - h1[l] * a0[l];
+        }
+        LANE_STORE(S, 9, f0); LANE_STORE(S, 10, f1); LANE_STORE(S, 11, f2);
+        LANE_K(Jxx, J0, J1, 0); LANE_K(Jxy, J0, J1, 1); LANE_K(Jxz, J0, J1, 2);
+        LANE_K(Jyy, J0, J1, 3); LANE_K(Jyz, J0, J1, 4); LANE_K(Jzz, J0, J1, 5);
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* n += the axial vector of Om J - (Om J)^T, from the off-diagonal entries mjk of
+             * Om J (Om rows O0..O2, O3..O5, O6..O8) */
+            n0[l] += (O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l]) - (O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l]);
+            n1[l] += (O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l]) - (O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l]);
+            n2[l] += (O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l]) - (O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l]);
+        }
+        LANE_STORE(S, 12, n0); LANE_STORE(S, 13, n1); LANE_STORE(S, 14, n2);
     }
-    LANE_K(Jxx, J0, J1, 0); LANE_K(Jxy, J0, J1, 1); LANE_K(Jxz, J0, J1, 2);
-    LANE_K(Jyy, J0, J1, 3); LANE_K(Jyz, J0, J1, 4); LANE_K(Jzz, J0, J1, 5);
-    for (l = 0; l < FORCE_LANES; l++) {
-        /* the off-diagonal entries mjk of Om J (Om rows O0..O2, O3..O5, O6..O8) */
-        const ffwd_real m01 = O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l];
-        const ffwd_real m10 = O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l];
-        const ffwd_real m02 = O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l];
-        const ffwd_real m20 = O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l];
-        const ffwd_real m12 = O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l];
-        const ffwd_real m21 = O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l];
-        f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
-        f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
-        f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
-        n0[l] = (h1[l] * a2[l] - h2[l] * a1[l]) + m21 - m12;
-        n1[l] = (h2[l] * a0[l] - h0[l] * a2[l]) + m02 - m20;
-        n2[l] = (h0[l] * a1[l] - h1[l] * a0[l]) + m10 - m01;
-    }
-    LANE_STORE(S, 9, f0); LANE_STORE(S, 10, f1); LANE_STORE(S, 11, f2);
-    LANE_STORE(S, 12, n0); LANE_STORE(S, 13, n1); LANE_STORE(S, 14, n2);
 }
 
 /* force f, torque n of a child (parent's axes, about the child's origin p) added to
@@ -371,20 +377,14 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
     }
     {
         /* FORCE_LANES bodies at a time; an odd last body twice (copied into the free
-         * second lane) */
-        const ffwd_real *K = KONST(w, 0);
-        const uint32_t k = FORCE_LANES > 1 ? 1u : 0u;
-        for (i = 0; i + k < n; i += (uint32_t)FORCE_LANES) {
-            body_forces(ids + i, K, K + k * FFWD_K_STRIDE);
-            K += FORCE_LANES * FFWD_K_STRIDE;
-        }
-        if (i < n) {
-            ffwd_real *S = ids + i;
+         * second lane of its pair) */
+        if (FORCE_LANES > 1 && (n & 1u)) {
+            ffwd_real *S = ids + (n - 1u);
             uint32_t e;
             for (e = 0; e < 9u; e++)
                 S[IE(e) + 1u] = S[IE(e)];
-            body_forces(S, K, K);
         }
+        body_forces(ids, KONST(w, 0), n);
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
