@@ -197,6 +197,16 @@ static int e0_kind(const ffwd_real *K)
 #define IE(e) ((uint32_t)(e) * ID_ST)
 typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1];
 
+/* The inverse-dynamics and gravity passes are inlined into ffwd_inverse_dynamics and
+ * ffwd_gravity_torque (ffwd_torque_parts calls out-of-line copies) where the target has
+ * two-lane vectors of doubles (desktop and application processors: a call's overhead
+ * saved); elsewhere (microcontrollers) one copy of each, for code size. */
+#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
+#define PASS_INLINE inline __attribute__((always_inline))
+#else
+#define PASS_INLINE
+#endif
+
 /* Lanes of the body-force step of id_pass: two bodies at once where the target has
  * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
  * a scalar FPU). LANE_LOAD moves entry e of the state S (IDS, at the first body) into
@@ -291,8 +301,8 @@ static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
  * State in IDS; p of a prismatic joint at B(i) + 9. */
-static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
-                   const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
+static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                               const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
@@ -483,7 +493,7 @@ void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
-static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
     ffwd_bits_ acc = 0u;
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
@@ -592,6 +602,19 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     return FFWD_E_NONFINITE;
 }
 
+/* out-of-line copies of the passes for ffwd_torque_parts (ffwd_inverse_dynamics and
+ * ffwd_gravity_torque have their own, inlined) */
+static FFWD_NOINLINE int id_pass_call(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                                      const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau)
+{
+    return id_pass(m, w, qd, qdd, g, tau, 0);
+}
+
+static FFWD_NOINLINE int gravity_pass_call(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+{
+    return gravity_pass(m, w, q, tau);
+}
+
 ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
                               const ffwd_real *qd, const ffwd_real *qdd, ffwd_real *inertial,
                               ffwd_real *velocity, ffwd_real *gravity, ffwd_real *friction)
@@ -615,9 +638,9 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
     ffwd_tool_body_(m, w);
     zn = TRIG_ZERO(w);  /* dof zeros (the row of zeros, spatial.h FFWD_OFF_TRIG) */
     ffwd_zero_(zn, m->dof);
-    (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
-    (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
-    (void)gravity_pass(m, w, q, gravity);
+    (void)id_pass_call(m, w, zn, qdd, zero3, inertial);
+    (void)id_pass_call(m, w, qd, zn, zero3, velocity);
+    (void)gravity_pass_call(m, w, q, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);
