@@ -282,13 +282,13 @@ static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32
     }
 }
 
-/* force f, torque n of a child (parent's axes, about the child's origin p) added to
- * the parent's state P (IDS) */
-#define ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2) do { \
-    (P)[IE(9)] += (f0); (P)[IE(10)] += (f1); (P)[IE(11)] += (f2); \
-    (P)[IE(12)] += (n0) + ((p)[1] * (f2) - (p)[2] * (f1)); \
-    (P)[IE(13)] += (n1) + ((p)[2] * (f0) - (p)[0] * (f2)); \
-    (P)[IE(14)] += (n2) + ((p)[0] * (f1) - (p)[1] * (f0)); } while (0)
+/* force f, torque n of a child (parent's axes, about the child's origin p) as force and
+ * torque about the parent's origin, into cf, cn */
+#define TO_PARENT(p, f0, f1, f2, n0, n1, n2) do { \
+    cf0 = (f0); cf1 = (f1); cf2 = (f2); \
+    cn0 = (n0) + ((p)[1] * (f2) - (p)[2] * (f1)); \
+    cn1 = (n1) + ((p)[2] * (f0) - (p)[0] * (f2)); \
+    cn2 = (n2) + ((p)[0] * (f1) - (p)[1] * (f0)); } while (0)
 
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
  * linear acceleration al of each frame origin; base acceleration -g): w, wd, al outward,
@@ -309,6 +309,8 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
     ffwd_real *const ids = IDS(w);
     const uint32_t n = m->dof;
     uint32_t i;
+    /* the force and torque body i + 1 hands to body i, its parent (a chain) */
+    ffwd_real cf0 = FR(0), cf1 = FR(0), cf2 = FR(0), cn0 = FR(0), cn1 = FR(0), cn2 = FR(0);
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
@@ -400,42 +402,55 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *S = ids + i;
         const int rev = J->type == FFWD_REVOLUTE;
-        ffwd_real t = rev ? S[IE(14)] : S[IE(11)];
+        const int32_t par = J->parent;
+        /* body i's own force plus that of body i + 1 where i is its parent (cf, cn) */
+        const ffwd_real f0 = S[IE(9)] + cf0, f1 = S[IE(10)] + cf1, f2 = S[IE(11)] + cf2;
+        const ffwd_real n0 = S[IE(12)] + cn0, n1 = S[IE(13)] + cn1, n2 = S[IE(14)] + cn2;
+        ffwd_real t = rev ? n2 : f2;
         if (drive)
             t += J->armature * qdd[i] + friction_torque(J, qd[i]);
         tau[i] = t;
         acc |= exp_bits(t);
-        if (J->parent >= 0) {
+        if (par >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const int kind = e0_kind(K);
             const ffwd_real c = cb[i], s = sb[i];
-            ffwd_real *P = ids + J->parent, f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
-            RZ(c, s, S[IE(9)], S[IE(10)], S[IE(11)], u0, u1, u2);
-            RZ(c, s, S[IE(12)], S[IE(13)], S[IE(14)], v0, v1, v2);
-            /* E0 by its kind, then f and n + p x f into the parent (a sign flip of a
-             * moved entry becomes a subtraction: no join, no negation) */
+            ffwd_real e0, e1, e2, r0, r1, r2, u0, u1, u2, v0, v1, v2;
+            RZ(c, s, f0, f1, f2, u0, u1, u2);
+            RZ(c, s, n0, n1, n2, v0, v1, v2);
+            /* E0 by its kind, then f and n + p x f in the parent's frame (a sign flip of
+             * a moved entry becomes a subtraction) */
             switch (kind) {
             case FFWD_KIND_I:
-                ADD_TO_PARENT(P, p, u0, u1, u2, v0, v1, v2);
+                TO_PARENT(p, u0, u1, u2, v0, v1, v2);
                 break;
             case FFWD_KIND_P90:
-                ADD_TO_PARENT(P, p, u0, -u2, u1, v0, -v2, v1);
+                TO_PARENT(p, u0, -u2, u1, v0, -v2, v1);
                 break;
             case FFWD_KIND_M90:
-                ADD_TO_PARENT(P, p, u0, u2, -u1, v0, v2, -v1);
+                TO_PARENT(p, u0, u2, -u1, v0, v2, -v1);
                 break;
             case FFWD_KIND_RX:
-                RXM(K, u0, u1, u2, f0, f1, f2);
-                RXM(K, v0, v1, v2, n0, n1, n2);
-                ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2);
+                RXM(K, u0, u1, u2, e0, e1, e2);
+                RXM(K, v0, v1, v2, r0, r1, r2);
+                TO_PARENT(p, e0, e1, e2, r0, r1, r2);
                 break;
             default:
-                GENM(K, u0, u1, u2, f0, f1, f2);
-                GENM(K, v0, v1, v2, n0, n1, n2);
-                ADD_TO_PARENT(P, p, f0, f1, f2, n0, n1, n2);
+                GENM(K, u0, u1, u2, e0, e1, e2);
+                GENM(K, v0, v1, v2, r0, r1, r2);
+                TO_PARENT(p, e0, e1, e2, r0, r1, r2);
                 break;
             }
+            if (par != (int32_t)i - 1) {
+                /* a parent further down (a tree): into its own force */
+                ffwd_real *P = ids + par;
+                P[IE(9)] += cf0; P[IE(10)] += cf1; P[IE(11)] += cf2;
+                P[IE(12)] += cn0; P[IE(13)] += cn1; P[IE(14)] += cn2;
+                cf0 = cf1 = cf2 = cn0 = cn1 = cn2 = FR(0);
+            }
+        } else {
+            cf0 = cf1 = cf2 = cn0 = cn1 = cn2 = FR(0); /* a base child hands nothing on */
         }
     }
     return finite_bits(acc);
