@@ -304,7 +304,7 @@ static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32
 static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                                const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
-    ffwd_bits_ acc = 0u;
+    ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     ffwd_real *const ids = IDS(w);
     const uint32_t n = m->dof;
@@ -420,7 +420,7 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         if (drive)
             t += J->armature * qdd[i] + friction_torque(J, qd[i]);
         tau[i] = t;
-        acc |= exp_bits(t);
+        acc += t * FR(0);
         if (par >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
@@ -463,7 +463,7 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
             cf0 = cf1 = cf2 = cn0 = cn1 = cn2 = FR(0); /* a base child hands nothing on */
         }
     }
-    return finite_bits(acc);
+    return acc == FR(0);
 }
 
 ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -520,7 +520,7 @@ void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
 static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
-    ffwd_bits_ acc = 0u;
+    ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
@@ -557,7 +557,7 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
                 u2 += S[0] * q[i];
             }
             tau[i] = t;
-            acc |= exp_bits(t);
+            acc += t * FR(0);
             E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
             K -= FFWD_K_STRIDE;
             B -= FFWD_B_STRIDE;
@@ -567,9 +567,9 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
             const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (S[2] + c1) - B[13] * (S[1] + c0)
                                                                 : -S[0] * B[14];
             tau[0] = t;
-            acc |= exp_bits(t);
+            acc += t * FR(0);
         }
-        return finite_bits(acc);
+        return acc == FR(0);
     }
     for (i = 0; i < m->dof; i++) {
         ffwd_real *B = BODY(w, i);
@@ -589,7 +589,7 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
         const ffwd_real M = B[18], *g = B + 12, *h = B + 19;
         const int rev = J->type == FFWD_REVOLUTE;
         tau[i] = rev ? g[0] * h[1] - g[1] * h[0] : -M * g[2];
-        acc |= exp_bits(tau[i]);
+        acc += tau[i] * FR(0);
         if (J->parent >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
@@ -604,7 +604,7 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
             P[21] += t2 + M * p[2];
         }
     }
-    return finite_bits(acc);
+    return acc == FR(0);
 }
 
 ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
