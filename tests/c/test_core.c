@@ -283,6 +283,7 @@ static void test_model_rules(void)
 }
 
 /* identities on random models */
+/* tree: 0 a chain, 1 random parents, 2 random parents and several children of the base */
 static void test_identities(int tree, int trials, uint32_t dof)
 {
     int t;
@@ -296,6 +297,9 @@ static void test_identities(int tree, int trials, uint32_t dof)
         static ffwd_real Y[13 * FFWD_MAX_DOF * FFWD_MAX_DOF];
         double scale, err;
         rand_model(&m, n, tree, 1);
+        if (tree == 2)  /* a forest: every third joint another child of the base */
+            for (i = 3; i < n; i += 3)
+                m.joint[i].parent = -1;
         if (t % 2) { m.tool_parent = (int32_t)(n / 2); rand_body(m.payload); }
         CHECK(ffwd_work_init(&w, &m) == FFWD_OK, "random model rejected");
         for (i = 0; i < n; i++) {
@@ -452,6 +456,7 @@ int main(void)
     test_model_rules();
     test_identities(0, 20, N6);
     test_identities(1, 20, 7u);
+    test_identities(2, 20, 8u);
     test_identities(0, 2, FFWD_MAX_DOF);
     test_identities(1, 2, FFWD_MAX_DOF);
     return finish("test_core");
