@@ -221,12 +221,13 @@ typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1
 #define LANE_LOAD(x, S, e) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (x)[l_] = (S)[IE(e) + (uint32_t)l_]; } while (0)
 #define LANE_STORE(S, e, x) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (S)[IE(e) + (uint32_t)l_] = (x)[l_]; } while (0)
 
-/* The body forces of id_pass, lane l from the state S (w, wd, al; see IDS) and th, J of
- * K(l): with Om = [wd]x + [w]x [w]x, f = M al + Om h and n = h x al + the axial vector of
- * Om J - (Om J)^T, into S (f, n).
+/* The body forces of id_pass for bodies 0..n-1, FORCE_LANES at a time: lane l from the
+ * state S (w, wd, al; see IDS) and th, J of K0 or K1: with Om = [wd]x + [w]x [w]x,
+ * f = M al + Om h and n = h x al + the axial vector of Om J - (Om J)^T, into S (f, n).
  * The bodies are independent, so every line is the same operation on each lane (one
- * vector instruction for both); K0 and K1 may be the same body. Out of line: one copy
- * of the code, with its own registers. */
+ * vector instruction for both); an odd last body fills both lanes (K1 = K0; id_pass
+ * copies its state into the second lane). Out of line: one copy of the code, with its
+ * own registers. */
 static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32_t n)
 {
     uint32_t i;
@@ -300,7 +301,10 @@ static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32
  * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
- * State in IDS; p of a prismatic joint at B(i) + 9. */
+ * State in IDS; p of a prismatic joint at B(i) + 9. Coming back, the force a body hands
+ * to its parent stays in registers where the parent is the next body down (every joint
+ * of a chain); otherwise it is added into the parent's own force. Returns 1 when every
+ * torque is finite. */
 static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                                const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
