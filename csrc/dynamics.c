@@ -478,9 +478,9 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
     /* qd and qdd are not scanned here: a non-finite qd[i] or qdd[i] makes tau[i]
-     * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
-     * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
-     * tau zeroed, as the entry check would */
+     * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * qd[i] / max(band,
+     * |qd[i]|) are Inf or NaN for any drive constants), which the pass reports as
+     * FFWD_E_NONFINITE with tau zeroed, as the entry check would */
     if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);

@@ -397,10 +397,29 @@ static inline ffwd_real clamp1(ffwd_real x)
     return FR(0.5) * (abs_real(x + FR(1)) - abs_real(x - FR(1)));
 }
 
-/* drive friction torque at velocity qd */
+/* max(a, b) for a >= 0 or NaN, b > 0, as one instruction without a branch: the compiler's
+ * fmax on AArch64 (fmaxnm; GCC turns the select below into a branch there), the select
+ * elsewhere (maxsd on x86-64, vsel or a conditional move on Arm M-profile FPUs); a NaN a
+ * gives b */
+static inline ffwd_real max_pos(ffwd_real a, ffwd_real b)
+{
+#if defined(__aarch64__) && defined(__GNUC__)
+#ifdef FFWD_SINGLE
+    return __builtin_fmaxf(a, b);
+#else
+    return __builtin_fmax(a, b);
+#endif
+#else
+    return a > b ? a : b;
+#endif
+}
+
+/* drive friction torque at velocity qd: viscous qd + coulomb clamp(qd / band, -1, 1),
+ * the clamp as qd / max(band, |qd|) (band > 0): qd / band inside the band, exactly +-1
+ * outside, one division and one max, no branch; NaN or Inf qd gives NaN */
 static inline ffwd_real friction_torque(const ffwd_joint *J, ffwd_real qd)
 {
-    return J->viscous * qd + J->coulomb * clamp1(qd / J->coulomb_band);
+    return J->viscous * qd + J->coulomb * (qd / max_pos(abs_real(qd), J->coulomb_band));
 }
 
 #endif /* FFWD_SPATIAL_H */
