@@ -325,21 +325,11 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
             const ffwd_real *P = ids + J->parent, *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
-            /* lane 0: t = w x p, lane 1: wd x p (one vector operation for both where the
-             * target has two-lane vectors) */
-            ffwd_real v0[2], v1[2], v2[2], t0[2], t1[2], t2[2];
-            int l;
-            v0[0] = P[IE(0)]; v0[1] = P[IE(3)];
-            v1[0] = P[IE(1)]; v1[1] = P[IE(4)];
-            v2[0] = P[IE(2)]; v2[1] = P[IE(5)];
-            for (l = 0; l < 2; l++) {
-                t0[l] = v1[l] * p2 - v2[l] * p1;
-                t1[l] = v2[l] * p0 - v0[l] * p2;
-                t2[l] = v0[l] * p1 - v1[l] * p0;
-            }
-            x0 = P[IE(6)] + t0[1] + (v1[0] * t2[0] - v2[0] * t1[0]);
-            x1 = P[IE(7)] + t1[1] + (v2[0] * t0[0] - v0[0] * t2[0]);
-            x2 = P[IE(8)] + t2[1] + (v0[0] * t1[0] - v1[0] * t0[0]);
+            const ffwd_real t0 = P[IE(1)] * p2 - P[IE(2)] * p1, t1 = P[IE(2)] * p0 - P[IE(0)] * p2;
+            const ffwd_real t2 = P[IE(0)] * p1 - P[IE(1)] * p0;
+            x0 = P[IE(6)] + (P[IE(4)] * p2 - P[IE(5)] * p1) + (P[IE(1)] * t2 - P[IE(2)] * t1);
+            x1 = P[IE(7)] + (P[IE(5)] * p0 - P[IE(3)] * p2) + (P[IE(2)] * t0 - P[IE(0)] * t2);
+            x2 = P[IE(8)] + (P[IE(3)] * p1 - P[IE(4)] * p0) + (P[IE(0)] * t1 - P[IE(1)] * t0);
             c = cb[i];
             s = sb[i];
             switch (kind) {
