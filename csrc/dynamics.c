@@ -20,45 +20,20 @@
 #define BODY(w, i) ((w)->scratch + FFWD_OFF_B + FFWD_B_STRIDE * (uint32_t)(i))
 #define AUX(w, i) ((w)->scratch + FFWD_OFF_A + FFWD_A_STRIDE * (uint32_t)(i))
 #define KONST(w, i) ((w)->scratch + FFWD_OFF_K + FFWD_K_STRIDE * (uint32_t)(i))
-#define TRIG_Q(w) ((w)->scratch + FFWD_OFF_TRIG)
+#define TRIG_ZERO(w) ((w)->scratch + FFWD_OFF_TRIG)
 #define TRIG_S(w) ((w)->scratch + FFWD_OFF_TRIG + FFWD_TRIG_STRIDE)
 #define TRIG_C(w) ((w)->scratch + FFWD_OFF_TRIG + 2 * FFWD_TRIG_STRIDE)
 
 /* sin, cos of theta = q + alpha (revolute) or alpha (prismatic) of every joint, two at a
- * time; p = p' + q E0 e_z of every prismatic joint. The sum of q^2 rides along: the
- * entry test of q (spatial.h) at two products and sums per joint. */
+ * time (ffwd_sincos_joints_); p = p' + q E0 e_z of every prismatic joint. The sum of q^2
+ * rides along: the entry test of q (spatial.h; the last q of an odd count counted twice,
+ * which only makes the test stricter). */
 int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
 {
-    ffwd_real *qb = TRIG_Q(w);
     const ffwd_real *al = w->scratch + FFWD_OFF_ALPHA, *rv = al + FFWD_MAX_DOF;
     const uint32_t n = m->dof;
     uint32_t i;
-    ffwd_real ss0 = FR(0), ss1 = FR(0);
-#ifdef FFWD_SINGLE
-    /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
-     * sin/cos of q, then the offset by the angle-sum formulas below */
-    (void)al;
-    for (i = 0; i < n; i++) {
-        qb[i] = rv[i] * q[i];
-        ss0 += q[i] * q[i];
-    }
-#else
-    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20; two at a
-     * time (one vector instruction each where the target has two-lane vectors) */
-    for (i = 0; i + 1u < n; i += 2u) {
-        const ffwd_real q0 = q[i], q1 = q[i + 1u];
-        qb[i] = rv[i] * q0 + al[i];
-        qb[i + 1u] = rv[i + 1u] * q1 + al[i + 1u];
-        ss0 += q0 * q0;
-        ss1 += q1 * q1;
-    }
-    if (n & 1u) {
-        const ffwd_real q0 = q[n - 1u];
-        qb[n - 1u] = rv[n - 1u] * q0 + al[n - 1u];
-        ss0 += q0 * q0;
-    }
-#endif
-    qb[n] = FR(0);
+    ffwd_real ss;
     if (w->scratch[FFWD_OFF_NPRIS] != FR(0)) {
         for (i = 0; i < n; i++) {
             if (m->joint[i].type != FFWD_REVOLUTE) {
@@ -70,8 +45,11 @@ int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
             }
         }
     }
-    ffwd_sincos_pairs_(qb, TRIG_S(w), TRIG_C(w), (n + 1u) / 2u);
 #ifdef FFWD_SINGLE
+    /* float: q + alpha would round the angle to the spacing of q (1e-3 rad at |q| = 2^14):
+     * sin/cos of q (offsets from the row of zeros), then the offset by the angle-sum
+     * formulas */
+    ss = ffwd_sincos_joints_(q, rv, TRIG_ZERO(w), TRIG_S(w), TRIG_C(w), n);
     for (i = 0; i < n; i++) {
         const ffwd_real *K = KONST(w, i), ca = K[FFWD_K_CA], sa = K[FFWD_K_SA];
         ffwd_real *sp = TRIG_S(w) + i, *cp = TRIG_C(w) + i;
@@ -79,8 +57,11 @@ int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q)
         *sp = sq * ca + cq * sa;
         *cp = cq * ca - sq * sa;
     }
+#else
+    /* double: q + alpha rounds the angle by at most 1.2e-10 rad at |q| = 2^20 */
+    ss = ffwd_sincos_joints_(q, rv, al, TRIG_S(w), TRIG_C(w), n);
 #endif
-    return ss0 + ss1 < FFWD_Q_MAX_ * FFWD_Q_MAX_;
+    return ss < FFWD_Q_MAX_ * FFWD_Q_MAX_;
 }
 
 /* R = E0 Rz(theta) and p of every body */
@@ -207,73 +188,108 @@ static int e0_kind(const ffwd_real *K)
     return (int)k;
 }
 
-/* Lanes of the body-force step of id_pass: two bodies at once where the target has
- * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
- * a scalar FPU). LANE_LOAD / LANE_STORE move entry k between the lanes and the bodies. */
-#if defined(__SSE2__) || defined(__ARM_NEON)
-#define FORCE_LANES 2
-#define LANE_LOAD(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
-#define LANE_STORE(p0, p1, k, x) ((p0)[k] = (x)[0], (p1)[k] = (x)[1])
+/* Inverse dynamics state of every body, entry by entry (structure of arrays): entry e of
+ * body i at IDS(w)[e ID_ST + i], e = 0..2 w, 3..5 wd, 6..8 al, 9..11 f, 12..14 n, in the
+ * per-call AUX area (spatial.h). Bodies 2k and 2k + 1 sit side by side, so that one
+ * vector load or store moves an entry of both. */
+#define ID_ST (((uint32_t)FFWD_MAX_DOF + 1u) & ~1u)
+#define IDS(w) ((w)->scratch + FFWD_OFF_A)
+#define IE(e) ((uint32_t)(e) * ID_ST)
+typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1];
+
+/* The inverse-dynamics and gravity passes are inlined into ffwd_inverse_dynamics and
+ * ffwd_gravity_torque (ffwd_torque_parts calls out-of-line copies) where the target has
+ * two-lane vectors of doubles (desktop and application processors: a call's overhead
+ * saved); elsewhere (microcontrollers) one copy of each, for code size. */
+#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
+#define PASS_INLINE inline __attribute__((always_inline))
 #else
-#define FORCE_LANES 1
-#define LANE_LOAD(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
-#define LANE_STORE(p0, p1, k, x) ((void)(p1), (p0)[k] = (x)[0])
+#define PASS_INLINE
 #endif
 
-/* The body forces of id_pass, lane l from B(l) (w at 12, wd at 15, al at 18), th(l)
- * and J(l) (in K(l)): with Om = [wd]x + [w]x [w]x, f = M al + Om h into 24 and n = h x al + the axial
- * vector of Om J - (Om J)^T into 27.
+/* Lanes of the body-force step of id_pass: two bodies at once where the target has
+ * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
+ * a scalar FPU). LANE_LOAD moves entry e of the state S (IDS, at the first body) into
+ * the lanes, LANE_STORE back, LANE_K parameter k of the bodies' constants K0, K1. */
+#if defined(__SSE2__) || defined(__ARM_NEON)
+#define FORCE_LANES 2
+#define LANE_K(x, p0, p1, k) ((x)[0] = (p0)[k], (x)[1] = (p1)[k])
+#else
+#define FORCE_LANES 1
+#define LANE_K(x, p0, p1, k) ((void)(p1), (x)[0] = (p0)[k])
+#endif
+#define LANE_LOAD(x, S, e) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (x)[l_] = (S)[IE(e) + (uint32_t)l_]; } while (0)
+#define LANE_STORE(S, e, x) do { int l_; for (l_ = 0; l_ < FORCE_LANES; l_++) (S)[IE(e) + (uint32_t)l_] = (x)[l_]; } while (0)
+
+/* The body forces of id_pass for bodies 0..n-1, FORCE_LANES at a time: lane l from the
+ * state S (w, wd, al; see IDS) and th, J of K0 or K1: with Om = [wd]x + [w]x [w]x,
+ * f = M al + Om h and n = h x al + the axial vector of Om J - (Om J)^T, into S (f, n).
  * The bodies are independent, so every line is the same operation on each lane (one
- * vector instruction for both); B0 and B1 may be the same body. Out of line: one copy
- * of the code, with its own registers. */
-static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_real *K0, const ffwd_real *K1)
+ * vector instruction for both); an odd last body fills both lanes (K1 = K0; id_pass
+ * copies its state into the second lane). Out of line: one copy of the code, with its
+ * own registers. */
+static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32_t n)
 {
-    const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
-    ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
-    ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
-    ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
-    ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
-    ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
-    ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
-    ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
-    ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
-    ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
-    ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
-    int l;
-    LANE_LOAD(M, t0, t1, 0); LANE_LOAD(h0, t0, t1, 1); LANE_LOAD(h1, t0, t1, 2); LANE_LOAD(h2, t0, t1, 3);
-    LANE_LOAD(a0, B0, B1, 18); LANE_LOAD(a1, B0, B1, 19); LANE_LOAD(a2, B0, B1, 20);
-    LANE_LOAD(w0, B0, B1, 12); LANE_LOAD(w1, B0, B1, 13); LANE_LOAD(w2, B0, B1, 14);
-    LANE_LOAD(d0, B0, B1, 15); LANE_LOAD(d1, B0, B1, 16); LANE_LOAD(d2, B0, B1, 17);
-    for (l = 0; l < FORCE_LANES; l++) {
-        /* Om = [wd]x + [w]x [w]x */
-        const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
-        const ffwd_real ww = x0 + x1 + x2;
-        const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
-        O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
-        O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
-        O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
-        O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+    uint32_t i;
+    for (i = 0; i < n; i += (uint32_t)FORCE_LANES) {
+        ffwd_real *S = ids + i;
+        const ffwd_real *K0 = K + FFWD_K_STRIDE * i, *K1 = i + 1u < n ? K0 + FFWD_K_STRIDE : K0;
+        const ffwd_real *t0 = K0 + FFWD_K_TH, *t1 = K1 + FFWD_K_TH, *J0 = K0 + FFWD_K_J, *J1 = K1 + FFWD_K_J;
+        ffwd_real M[FORCE_LANES], h0[FORCE_LANES], h1[FORCE_LANES], h2[FORCE_LANES];
+        ffwd_real a0[FORCE_LANES], a1[FORCE_LANES], a2[FORCE_LANES];
+        ffwd_real w0[FORCE_LANES], w1[FORCE_LANES], w2[FORCE_LANES];
+        ffwd_real d0[FORCE_LANES], d1[FORCE_LANES], d2[FORCE_LANES];
+        ffwd_real O0[FORCE_LANES], O1[FORCE_LANES], O2[FORCE_LANES], O3[FORCE_LANES], O4[FORCE_LANES];
+        ffwd_real O5[FORCE_LANES], O6[FORCE_LANES], O7[FORCE_LANES], O8[FORCE_LANES];
+        ffwd_real Jxx[FORCE_LANES], Jxy[FORCE_LANES], Jxz[FORCE_LANES];
+        ffwd_real Jyy[FORCE_LANES], Jyz[FORCE_LANES], Jzz[FORCE_LANES];
+        ffwd_real f0[FORCE_LANES], f1[FORCE_LANES], f2[FORCE_LANES];
+        ffwd_real n0[FORCE_LANES], n1[FORCE_LANES], n2[FORCE_LANES];
+        int l;
+        LANE_K(M, t0, t1, 0); LANE_K(h0, t0, t1, 1); LANE_K(h1, t0, t1, 2); LANE_K(h2, t0, t1, 3);
+        LANE_LOAD(w0, S, 0); LANE_LOAD(w1, S, 1); LANE_LOAD(w2, S, 2);
+        LANE_LOAD(d0, S, 3); LANE_LOAD(d1, S, 4); LANE_LOAD(d2, S, 5);
+        LANE_LOAD(a0, S, 6); LANE_LOAD(a1, S, 7); LANE_LOAD(a2, S, 8);
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* Om = [wd]x + [w]x [w]x */
+            const ffwd_real x0 = w0[l] * w0[l], x1 = w1[l] * w1[l], x2 = w2[l] * w2[l];
+            const ffwd_real ww = x0 + x1 + x2;
+            const ffwd_real y0 = w0[l] * w1[l], y1 = w0[l] * w2[l], y2 = w1[l] * w2[l];
+            O0[l] = x0 - ww; O4[l] = x1 - ww; O8[l] = x2 - ww;
+            O1[l] = y0 - d2[l]; O3[l] = y0 + d2[l];
+            O2[l] = y1 + d1[l]; O6[l] = y1 - d1[l];
+            O5[l] = y2 - d0[l]; O7[l] = y2 + d0[l];
+        }
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* f = M al + Om h, and h x al (mass and first moment are done with then) */
+            f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
+            f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
+            f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
+            n0[l] = h1[l] * a2[l] - h2[l] * a1[l];
+            n1[l] = h2[l] * a0[l] - h0[l] * a2[l];
+            n2[l] = h0[l] * a1[l] - h1[l] * a0[l];
+        }
+        LANE_STORE(S, 9, f0); LANE_STORE(S, 10, f1); LANE_STORE(S, 11, f2);
+        LANE_K(Jxx, J0, J1, 0); LANE_K(Jxy, J0, J1, 1); LANE_K(Jxz, J0, J1, 2);
+        LANE_K(Jyy, J0, J1, 3); LANE_K(Jyz, J0, J1, 4); LANE_K(Jzz, J0, J1, 5);
+        for (l = 0; l < FORCE_LANES; l++) {
+            /* n += the axial vector of Om J - (Om J)^T, from the off-diagonal entries mjk of
+             * Om J (Om rows O0..O2, O3..O5, O6..O8) */
+            n0[l] += (O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l]) - (O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l]);
+            n1[l] += (O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l]) - (O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l]);
+            n2[l] += (O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l]) - (O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l]);
+        }
+        LANE_STORE(S, 12, n0); LANE_STORE(S, 13, n1); LANE_STORE(S, 14, n2);
     }
-    LANE_LOAD(Jxx, J0, J1, 0); LANE_LOAD(Jxy, J0, J1, 1); LANE_LOAD(Jxz, J0, J1, 2);
-    LANE_LOAD(Jyy, J0, J1, 3); LANE_LOAD(Jyz, J0, J1, 4); LANE_LOAD(Jzz, J0, J1, 5);
-    for (l = 0; l < FORCE_LANES; l++) {
-        /* the off-diagonal entries mjk of Om J (Om rows O0..O2, O3..O5, O6..O8) */
-        const ffwd_real m01 = O0[l] * Jxy[l] + O1[l] * Jyy[l] + O2[l] * Jyz[l];
-        const ffwd_real m10 = O3[l] * Jxx[l] + O4[l] * Jxy[l] + O5[l] * Jxz[l];
-        const ffwd_real m02 = O0[l] * Jxz[l] + O1[l] * Jyz[l] + O2[l] * Jzz[l];
-        const ffwd_real m20 = O6[l] * Jxx[l] + O7[l] * Jxy[l] + O8[l] * Jxz[l];
-        const ffwd_real m12 = O3[l] * Jxz[l] + O4[l] * Jyz[l] + O5[l] * Jzz[l];
-        const ffwd_real m21 = O6[l] * Jxy[l] + O7[l] * Jyy[l] + O8[l] * Jyz[l];
-        f0[l] = M[l] * a0[l] + O0[l] * h0[l] + O1[l] * h1[l] + O2[l] * h2[l];
-        f1[l] = M[l] * a1[l] + O3[l] * h0[l] + O4[l] * h1[l] + O5[l] * h2[l];
-        f2[l] = M[l] * a2[l] + O6[l] * h0[l] + O7[l] * h1[l] + O8[l] * h2[l];
-        n0[l] = (h1[l] * a2[l] - h2[l] * a1[l]) + m21 - m12;
-        n1[l] = (h2[l] * a0[l] - h0[l] * a2[l]) + m02 - m20;
-        n2[l] = (h0[l] * a1[l] - h1[l] * a0[l]) + m10 - m01;
-    }
-    LANE_STORE(B0, B1, 24, f0); LANE_STORE(B0, B1, 25, f1); LANE_STORE(B0, B1, 26, f2);
-    LANE_STORE(B0, B1, 27, n0); LANE_STORE(B0, B1, 28, n1); LANE_STORE(B0, B1, 29, n2);
 }
+
+/* force f, torque n of a child (parent's axes, about the child's origin p) as force and
+ * torque about the parent's origin, into cf, cn */
+#define TO_PARENT(p, f0, f1, f2, n0, n1, n2) do { \
+    cf0 = (f0); cf1 = (f1); cf2 = (f2); \
+    cn0 = (n0) + ((p)[1] * (f2) - (p)[2] * (f1)); \
+    cn1 = (n1) + ((p)[2] * (f0) - (p)[0] * (f2)); \
+    cn2 = (n2) + ((p)[0] * (f1) - (p)[1] * (f0)); } while (0)
 
 /* Recursive Newton-Euler in 3-D vector form (angular velocity w, angular acceleration wd,
  * linear acceleration al of each frame origin; base acceleration -g): w, wd, al outward,
@@ -285,52 +301,58 @@ static FFWD_NOINLINE void body_forces(ffwd_real *B0, ffwd_real *B1, const ffwd_r
  * where Io wd + w x (Io w) is the axial vector of Om J - (Om J)^T with the second moment
  * J = tr(Io)/2 1 - Io (from [a]x J + J [a]x = [Io a]x and [a]x[b]x - [b]x[a]x = [a x b]x).
  * drive != 0 adds armature and friction to tau. Needs ffwd_trig_.
- * B(i): (p at 9 for prismatic joints), w at 12, wd at 15, al at 18, f at 24, n at 27. */
-static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
-                   const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
+ * State in IDS; p of a prismatic joint at B(i) + 9. Coming back, the force a body hands
+ * to its parent stays in registers where the parent is the next body down (every joint
+ * of a chain); otherwise it is added into the parent's own force. Returns 1 when every
+ * torque is finite. */
+static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                               const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
-    ffwd_bits_ acc = 0u;
+    ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
+    ffwd_real *const ids = IDS(w);
     const uint32_t n = m->dof;
     uint32_t i;
+    /* the force and torque body i + 1 hands to body i, its parent (a chain) */
+    ffwd_real cf0 = FR(0), cf1 = FR(0), cf2 = FR(0), cn0 = FR(0), cn1 = FR(0), cn2 = FR(0);
     for (i = 0; i < n; i++) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
-        ffwd_real *B = BODY(w, i);
+        ffwd_real *S = ids + i;
         const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
         ffwd_real c, s, dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
         if (J->parent >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
-            const ffwd_real *P = BODY(w, J->parent), *p = rev ? K + FFWD_K_P : B + 9;
+            const ffwd_real *P = ids + J->parent, *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
-            const ffwd_real t0 = P[13] * p2 - P[14] * p1, t1 = P[14] * p0 - P[12] * p2;
-            const ffwd_real t2 = P[12] * p1 - P[13] * p0;
-            x0 = P[18] + (P[16] * p2 - P[17] * p1) + (P[13] * t2 - P[14] * t1);
-            x1 = P[19] + (P[17] * p0 - P[15] * p2) + (P[14] * t0 - P[12] * t2);
-            x2 = P[20] + (P[15] * p1 - P[16] * p0) + (P[12] * t1 - P[13] * t0);
+            const ffwd_real t0 = P[IE(1)] * p2 - P[IE(2)] * p1, t1 = P[IE(2)] * p0 - P[IE(0)] * p2;
+            const ffwd_real t2 = P[IE(0)] * p1 - P[IE(1)] * p0;
+            x0 = P[IE(6)] + (P[IE(4)] * p2 - P[IE(5)] * p1) + (P[IE(1)] * t2 - P[IE(2)] * t1);
+            x1 = P[IE(7)] + (P[IE(5)] * p0 - P[IE(3)] * p2) + (P[IE(2)] * t0 - P[IE(0)] * t2);
+            x2 = P[IE(8)] + (P[IE(3)] * p1 - P[IE(4)] * p0) + (P[IE(0)] * t1 - P[IE(1)] * t0);
             c = cb[i];
             s = sb[i];
             switch (kind) {
             case FFWD_KIND_I:
-                RZT(c, s, P[12], P[13], P[14], w0, w1, w2);
-                RZT(c, s, P[15], P[16], P[17], d0, d1, d2);
+                RZT(c, s, P[IE(0)], P[IE(1)], P[IE(2)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], P[IE(4)], P[IE(5)], d0, d1, d2);
                 RZT(c, s, x0, x1, x2, a0, a1, a2);
                 break;
             case FFWD_KIND_P90:
-                RZT(c, s, P[12], P[14], -P[13], w0, w1, w2);
-                RZT(c, s, P[15], P[17], -P[16], d0, d1, d2);
+                RZT(c, s, P[IE(0)], P[IE(2)], -P[IE(1)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], P[IE(5)], -P[IE(4)], d0, d1, d2);
                 RZT(c, s, x0, x2, -x1, a0, a1, a2);
                 break;
             case FFWD_KIND_M90:
-                RZT(c, s, P[12], -P[14], P[13], w0, w1, w2);
-                RZT(c, s, P[15], -P[17], P[16], d0, d1, d2);
+                RZT(c, s, P[IE(0)], -P[IE(2)], P[IE(1)], w0, w1, w2);
+                RZT(c, s, P[IE(3)], -P[IE(5)], P[IE(4)], d0, d1, d2);
                 RZT(c, s, x0, -x2, x1, a0, a1, a2);
                 break;
             case FFWD_KIND_RX: {
                 ffwd_real u0, u1, u2;
-                RXT(K, P[12], P[13], P[14], u0, u1, u2);
+                RXT(K, P[IE(0)], P[IE(1)], P[IE(2)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, w0, w1, w2);
-                RXT(K, P[15], P[16], P[17], u0, u1, u2);
+                RXT(K, P[IE(3)], P[IE(4)], P[IE(5)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, d0, d1, d2);
                 RXT(K, x0, x1, x2, u0, u1, u2);
                 RZT(c, s, u0, u1, u2, a0, a1, a2);
@@ -338,9 +360,9 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             }
             default: {
                 ffwd_real u0, u1, u2;
-                GENT(K, P[12], P[13], P[14], u0, u1, u2);
+                GENT(K, P[IE(0)], P[IE(1)], P[IE(2)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, w0, w1, w2);
-                GENT(K, P[15], P[16], P[17], u0, u1, u2);
+                GENT(K, P[IE(3)], P[IE(4)], P[IE(5)], u0, u1, u2);
                 RZT(c, s, u0, u1, u2, d0, d1, d2);
                 GENT(K, x0, x1, x2, u0, u1, u2);
                 RZT(c, s, u0, u1, u2, a0, a1, a2);
@@ -366,65 +388,76 @@ static int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
             /* al += 2 w x e_z dq + e_z ddq */
             a0 += FR(2) * w1 * dq; a1 -= FR(2) * w0 * dq; a2 += ddq;
         }
-        B[12] = w0; B[13] = w1; B[14] = w2; B[15] = d0; B[16] = d1; B[17] = d2;
-        B[18] = a0; B[19] = a1; B[20] = a2;
+        S[IE(0)] = w0; S[IE(1)] = w1; S[IE(2)] = w2; S[IE(3)] = d0; S[IE(4)] = d1; S[IE(5)] = d2;
+        S[IE(6)] = a0; S[IE(7)] = a1; S[IE(8)] = a2;
     }
     {
-        /* FORCE_LANES bodies at a time; an odd last body twice (lanes of the same body) */
-        ffwd_real *B = BODY(w, 0);
-        const ffwd_real *K = KONST(w, 0);
-        const uint32_t k = FORCE_LANES > 1 ? 1u : 0u;
-        for (i = 0; i + k < n; i += (uint32_t)FORCE_LANES) {
-            body_forces(B, B + k * FFWD_B_STRIDE, K, K + k * FFWD_K_STRIDE);
-            B += FORCE_LANES * FFWD_B_STRIDE;
-            K += FORCE_LANES * FFWD_K_STRIDE;
+        /* FORCE_LANES bodies at a time; an odd last body twice (copied into the free
+         * second lane of its pair) */
+        if (FORCE_LANES > 1 && (n & 1u)) {
+            ffwd_real *S = ids + (n - 1u);
+            uint32_t e;
+            for (e = 0; e < 9u; e++)
+                S[IE(e) + 1u] = S[IE(e)];
         }
-        if (i < n)
-            body_forces(B, B, K, K);
+        body_forces(ids, KONST(w, 0), n);
     }
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
-        const ffwd_real *B = BODY(w, i);
+        const ffwd_real *S = ids + i;
         const int rev = J->type == FFWD_REVOLUTE;
-        ffwd_real t = rev ? B[29] : B[26];
+        const int32_t par = J->parent;
+        /* body i's own force plus that of body i + 1 where i is its parent (cf, cn) */
+        const ffwd_real f0 = S[IE(9)] + cf0, f1 = S[IE(10)] + cf1, f2 = S[IE(11)] + cf2;
+        const ffwd_real n0 = S[IE(12)] + cn0, n1 = S[IE(13)] + cn1, n2 = S[IE(14)] + cn2;
+        ffwd_real t = rev ? n2 : f2;
         if (drive)
             t += J->armature * qdd[i] + friction_torque(J, qd[i]);
         tau[i] = t;
-        acc |= exp_bits(t);
-        if (J->parent >= 0) {
+        acc += t * FR(0);
+        if (par >= 0) {
             const ffwd_real *K = KONST(w, i);
-            const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
+            const ffwd_real *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const int kind = e0_kind(K);
             const ffwd_real c = cb[i], s = sb[i];
-            ffwd_real *P = BODY(w, J->parent), f0, f1, f2, n0, n1, n2, u0, u1, u2, v0, v1, v2;
-            RZ(c, s, B[24], B[25], B[26], u0, u1, u2);
-            RZ(c, s, B[27], B[28], B[29], v0, v1, v2);
+            ffwd_real e0, e1, e2, r0, r1, r2, u0, u1, u2, v0, v1, v2;
+            RZ(c, s, f0, f1, f2, u0, u1, u2);
+            RZ(c, s, n0, n1, n2, v0, v1, v2);
+            /* E0 by its kind, then f and n + p x f in the parent's frame (a sign flip of
+             * a moved entry becomes a subtraction) */
             switch (kind) {
             case FFWD_KIND_I:
-                f0 = u0; f1 = u1; f2 = u2; n0 = v0; n1 = v1; n2 = v2;
+                TO_PARENT(p, u0, u1, u2, v0, v1, v2);
                 break;
             case FFWD_KIND_P90:
-                f0 = u0; f1 = -u2; f2 = u1; n0 = v0; n1 = -v2; n2 = v1;
+                TO_PARENT(p, u0, -u2, u1, v0, -v2, v1);
                 break;
             case FFWD_KIND_M90:
-                f0 = u0; f1 = u2; f2 = -u1; n0 = v0; n1 = v2; n2 = -v1;
+                TO_PARENT(p, u0, u2, -u1, v0, v2, -v1);
                 break;
             case FFWD_KIND_RX:
-                RXM(K, u0, u1, u2, f0, f1, f2);
-                RXM(K, v0, v1, v2, n0, n1, n2);
+                RXM(K, u0, u1, u2, e0, e1, e2);
+                RXM(K, v0, v1, v2, r0, r1, r2);
+                TO_PARENT(p, e0, e1, e2, r0, r1, r2);
                 break;
             default:
-                GENM(K, u0, u1, u2, f0, f1, f2);
-                GENM(K, v0, v1, v2, n0, n1, n2);
+                GENM(K, u0, u1, u2, e0, e1, e2);
+                GENM(K, v0, v1, v2, r0, r1, r2);
+                TO_PARENT(p, e0, e1, e2, r0, r1, r2);
                 break;
             }
-            P[24] += f0; P[25] += f1; P[26] += f2;
-            P[27] += n0 + p[1] * f2 - p[2] * f1;
-            P[28] += n1 + p[2] * f0 - p[0] * f2;
-            P[29] += n2 + p[0] * f1 - p[1] * f0;
+            if (par != (int32_t)i - 1) {
+                /* a parent further down (a tree): into its own force */
+                ffwd_real *P = ids + par;
+                P[IE(9)] += cf0; P[IE(10)] += cf1; P[IE(11)] += cf2;
+                P[IE(12)] += cn0; P[IE(13)] += cn1; P[IE(14)] += cn2;
+                cf0 = cf1 = cf2 = cn0 = cn1 = cn2 = FR(0);
+            }
+        } else {
+            cf0 = cf1 = cf2 = cn0 = cn1 = cn2 = FR(0); /* a base child hands nothing on */
         }
     }
-    return finite_bits(acc);
+    return acc == FR(0);
 }
 
 ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -435,9 +468,9 @@ ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_
     const int shape[1] = { FFWD_SHAPE_N };
     ffwd_status st;
     /* qd and qdd are not scanned here: a non-finite qd[i] or qdd[i] makes tau[i]
-     * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * clamp1(qd[i] / band) are
-     * Inf or NaN for any drive constants), which the pass reports as FFWD_E_NONFINITE with
-     * tau zeroed, as the entry check would */
+     * non-finite (armature * qdd[i] and viscous * qd[i] + coulomb * qd[i] / max(band,
+     * |qd[i]|) are Inf or NaN for any drive constants), which the pass reports as
+     * FFWD_E_NONFINITE with tau zeroed, as the entry check would */
     if (!(qd != NULL && qdd != NULL && tau != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
         in[0] = q; in[1] = qd; in[2] = qdd; out[0] = tau;
         st = ffwd_enter_(m, w, in, 3, out, shape, 1);
@@ -479,9 +512,9 @@ void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
-static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
-    ffwd_bits_ acc = 0u;
+    ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
     uint32_t i;
     if (w->scratch[FFWD_OFF_CHAIN] != FR(0)) {
@@ -518,7 +551,7 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
                 u2 += S[0] * q[i];
             }
             tau[i] = t;
-            acc |= exp_bits(t);
+            acc += t * FR(0);
             E0M(e0_kind(K), K, u0, u1, u2, c0, c1, c2);
             K -= FFWD_K_STRIDE;
             B -= FFWD_B_STRIDE;
@@ -528,9 +561,9 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
             const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (S[2] + c1) - B[13] * (S[1] + c0)
                                                                 : -S[0] * B[14];
             tau[0] = t;
-            acc |= exp_bits(t);
+            acc += t * FR(0);
         }
-        return finite_bits(acc);
+        return acc == FR(0);
     }
     for (i = 0; i < m->dof; i++) {
         ffwd_real *B = BODY(w, i);
@@ -550,7 +583,7 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
         const ffwd_real M = B[18], *g = B + 12, *h = B + 19;
         const int rev = J->type == FFWD_REVOLUTE;
         tau[i] = rev ? g[0] * h[1] - g[1] * h[0] : -M * g[2];
-        acc |= exp_bits(tau[i]);
+        acc += tau[i] * FR(0);
         if (J->parent >= 0) {
             const ffwd_real *K = KONST(w, i);
             const ffwd_real *p = rev ? K + FFWD_K_P : B + 9;
@@ -565,7 +598,7 @@ static int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, f
             P[21] += t2 + M * p[2];
         }
     }
-    return finite_bits(acc);
+    return acc == FR(0);
 }
 
 ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
@@ -586,6 +619,19 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
         return FFWD_OK;
     ffwd_zero_(tau, m->dof); /* an overflow inside: never hand out Inf or NaN */
     return FFWD_E_NONFINITE;
+}
+
+/* out-of-line copies of the passes for ffwd_torque_parts (ffwd_inverse_dynamics and
+ * ffwd_gravity_torque have their own, inlined) */
+static FFWD_NOINLINE int id_pass_call(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                                      const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau)
+{
+    return id_pass(m, w, qd, qdd, g, tau, 0);
+}
+
+static FFWD_NOINLINE int gravity_pass_call(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+{
+    return gravity_pass(m, w, q, tau);
 }
 
 ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -609,11 +655,11 @@ ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real
         (void)ffwd_trig_(m, w, q);
     }
     ffwd_tool_body_(m, w);
-    zn = w->scratch + FFWD_OFF_TRIG;  /* dof zeros (q copy of the transforms, no longer needed) */
+    zn = TRIG_ZERO(w);  /* dof zeros (the row of zeros, spatial.h FFWD_OFF_TRIG) */
     ffwd_zero_(zn, m->dof);
-    (void)id_pass(m, w, zn, qdd, zero3, inertial, 0);
-    (void)id_pass(m, w, qd, zn, zero3, velocity, 0);
-    (void)gravity_pass(m, w, q, gravity);
+    (void)id_pass_call(m, w, zn, qdd, zero3, inertial);
+    (void)id_pass_call(m, w, qd, zn, zero3, velocity);
+    (void)gravity_pass_call(m, w, q, gravity);
     for (i = 0; i < m->dof; i++) {
         inertial[i] += m->joint[i].armature * qdd[i];
         friction[i] = friction_torque(&m->joint[i], qd[i]);

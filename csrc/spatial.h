@@ -76,7 +76,8 @@ enum { FFWD_KIND_I = 0, FFWD_KIND_P90 = 1, FFWD_KIND_M90 = 2, FFWD_KIND_RX = 3, 
 #define FFWD_OFF_ATP    (FFWD_OFF_TMP + 30)
 #define FFWD_OFF_TOOL   (FFWD_OFF_ATP + 9)
 #define FFWD_OFF_PAY    (FFWD_OFF_TOOL + 12)
-/* q (zero padded to an even count), sin q, cos q for the joint transforms */
+/* a row of zeros (work init and ffwd_torque_parts write zeros, nothing else writes it),
+ * sin theta, cos theta (room for an even count) for the joint transforms */
 #define FFWD_TRIG_STRIDE (FFWD_MAX_DOF + 1)
 #define FFWD_OFF_TRIG   (FFWD_OFF_TMP + 64)
 /* temporaries of the articulated-body pass (kept off the stack) */
@@ -101,8 +102,12 @@ typedef char ffwd_layout_fits[(FFWD_LAYOUT_END <= FFWD_WORK_REALS) ? 1 : -1];
 /* ---- internal functions shared between the core's files -------------------------- */
 /* sin and cos of x, bounded time, no libm (trig.c). */
 void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c);
-/* the same for x[0 .. 2*npairs), two at a time (trig.c); s, c must not alias x */
-void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t npairs);
+/* sin and cos of x_k = rv[k] q[k] + al[k], k < n, two at a time, into s[k], c[k]
+ * (trig.c); s, c must not alias the inputs and have room for n rounded up to even (an odd
+ * last pair repeats the last angle). Returns the sum of q[k]^2 with the last q of an odd
+ * n counted twice (a range test of q, see ffwd_trig_). */
+ffwd_real ffwd_sincos_joints_(const ffwd_real *q, const ffwd_real *rv, const ffwd_real *al,
+                              ffwd_real *s, ffwd_real *c, uint32_t n);
 /* 1 when (m, w) are bound by ffwd_work_init (model.c). */
 int ffwd_bound_(const ffwd_model *m, const ffwd_work *w);
 /* 1 when every entry of x[0..n) is finite (model.c). */
@@ -392,10 +397,29 @@ static inline ffwd_real clamp1(ffwd_real x)
     return FR(0.5) * (abs_real(x + FR(1)) - abs_real(x - FR(1)));
 }
 
-/* drive friction torque at velocity qd */
+/* max(a, b) for a >= 0 or NaN, b > 0, as one instruction without a branch: the compiler's
+ * fmax on AArch64 (fmaxnm; GCC turns the select below into a branch there), the select
+ * elsewhere (maxsd on x86-64, vsel or a conditional move on Arm M-profile FPUs); a NaN a
+ * gives b */
+static inline ffwd_real max_pos(ffwd_real a, ffwd_real b)
+{
+#if defined(__aarch64__) && defined(__GNUC__)
+#ifdef FFWD_SINGLE
+    return __builtin_fmaxf(a, b);
+#else
+    return __builtin_fmax(a, b);
+#endif
+#else
+    return a > b ? a : b;
+#endif
+}
+
+/* drive friction torque at velocity qd: viscous qd + coulomb clamp(qd / band, -1, 1),
+ * the clamp as qd / max(band, |qd|) (band > 0): qd / band inside the band, exactly +-1
+ * outside, one division and one max, no branch; NaN or Inf qd gives NaN */
 static inline ffwd_real friction_torque(const ffwd_joint *J, ffwd_real qd)
 {
-    return J->viscous * qd + J->coulomb * clamp1(qd / J->coulomb_band);
+    return J->viscous * qd + J->coulomb * (qd / max_pos(abs_real(qd), J->coulomb_band));
 }
 
 #endif /* FFWD_SPATIAL_H */

@@ -54,76 +54,93 @@ static ffwd_real cos_tail(ffwd_real z)
 #endif
 }
 
-/* sin and cos of x[0 .. 2*npairs), written two lanes at a time so that the compiler can
- * keep both lanes in one vector register: k is the rounded value less the magic constant
- * and its quadrant is read from the bits of the rounded value (no float-to-integer
- * conversion, so no undefined behaviour for huge x), and the quadrant is applied with
- * bit masks (swap s/c, flip the sign bit), no table, no branch. */
+/* sin and cos of the angles x[0], x[1] (LANES lanes) into s, c: written lane by lane so
+ * that the compiler can keep both lanes in one vector register: k is the rounded value
+ * less the magic constant and its quadrant is read from the bits of the rounded value (no
+ * float-to-integer conversion, so no undefined behaviour for huge x), and the quadrant is
+ * applied with bit masks (swap s/c, flip the sign bit), no table, no branch. */
 #define LANES 2
-void ffwd_sincos_pairs_(const ffwd_real *restrict x, ffwd_real *restrict s, ffwd_real *restrict c,
-                        uint32_t npairs)
+static inline void sincos_lanes(const ffwd_real *xv, ffwd_real *s, ffwd_real *c)
 {
     const ffwd_bits_ one = 1u, sign = one << (8u * sizeof(ffwd_real) - 1u);
     const unsigned top1 = 8u * (unsigned)sizeof(ffwd_real) - 2u;
-    uint32_t p;
-    for (p = 0; p < npairs; p++) {
-        ffwd_real xv[LANES], kv[LANES], nk[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
-        ffwd_real lo[LANES], rh[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
-        ffwd_real hz[LANES], wv[LANES];
-        ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
-        int l;
-        for (l = 0; l < LANES; l++)
-            xv[l] = x[LANES * p + (uint32_t)l];
-        for (l = 0; l < LANES; l++)
-            kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
-        memcpy(b, kv, sizeof b);
-        for (l = 0; l < LANES; l++)
-            nk[l] = ROUND_MAGIC - kv[l]; /* -k, exact: kv is ROUND_MAGIC + k */
-        for (l = 0; l < LANES; l++) {
-            /* nk = -k: each product once, no negation */
-            t1[l] = xv[l] + nk[l] * P1;
-            hi[l] = t1[l] + nk[l] * P2;
-            bb[l] = hi[l] - t1[l];
-            e1[l] = (t1[l] - (hi[l] - bb[l])) + (nk[l] * P2 - bb[l]);
+    ffwd_real kv[LANES], nk[LANES], t1[LANES], hi[LANES], bb[LANES], e1[LANES];
+    ffwd_real lo[LANES], rh[LANES], rl[LANES], z[LANES], sr[LANES], cr[LANES];
+    ffwd_real hz[LANES], wv[LANES];
+    ffwd_bits_ b[LANES], us[LANES], uc[LANES], sw[LANES], os[LANES], oc[LANES];
+    int l;
+    for (l = 0; l < LANES; l++)
+        kv[l] = xv[l] * TWO_OVER_PI + ROUND_MAGIC;
+    memcpy(b, kv, sizeof b);
+    for (l = 0; l < LANES; l++)
+        nk[l] = ROUND_MAGIC - kv[l]; /* -k, exact: kv is ROUND_MAGIC + k */
+    for (l = 0; l < LANES; l++) {
+        /* nk = -k: each product once, no negation */
+        t1[l] = xv[l] + nk[l] * P1;
+        hi[l] = t1[l] + nk[l] * P2;
+        bb[l] = hi[l] - t1[l];
+        e1[l] = (t1[l] - (hi[l] - bb[l])) + (nk[l] * P2 - bb[l]);
 #ifdef FFWD_SINGLE
-            {
-                ffwd_real h2 = hi[l] + nk[l] * P3, b2 = h2 - hi[l];
-                ffwd_real e2 = (hi[l] - (h2 - b2)) + (nk[l] * P3 - b2);
-                lo[l] = (e1[l] + e2) + nk[l] * P4;
-                hi[l] = h2;
-            }
+        {
+            ffwd_real h2 = hi[l] + nk[l] * P3, b2 = h2 - hi[l];
+            ffwd_real e2 = (hi[l] - (h2 - b2)) + (nk[l] * P3 - b2);
+            lo[l] = (e1[l] + e2) + nk[l] * P4;
+            hi[l] = h2;
+        }
 #else
-            lo[l] = (e1[l] + nk[l] * P3) + nk[l] * P4;
+        lo[l] = (e1[l] + nk[l] * P3) + nk[l] * P4;
 #endif
-            rh[l] = hi[l] + lo[l];
-            rl[l] = lo[l] - (rh[l] - hi[l]); /* fast two-sum: |lo| <= |hi| up to rounding */
-            z[l] = rh[l] * rh[l];
-            sr[l] = rh[l] + (rh[l] * z[l] * sin_tail(z[l]) + rl[l] * (FR(1) - FR(0.5) * z[l]));
-            hz[l] = FR(0.5) * z[l];
-            wv[l] = FR(1) - hz[l];
-            cr[l] = wv[l] + ((((FR(1) - wv[l]) - hz[l]) + z[l] * z[l] * cos_tail(z[l])) - rh[l] * rl[l]);
-        }
-        memcpy(us, sr, sizeof us);
-        memcpy(uc, cr, sizeof uc);
-        for (l = 0; l < LANES; l++) {
-            /* k odd: swap sin and cos (both xor their difference); bit 1 of k (of k + 1
-             * for cos) shifted into the sign bit */
-            sw[l] = (us[l] ^ uc[l]) & ((ffwd_bits_)0 - (b[l] & one));
-            os[l] = (us[l] ^ sw[l]) ^ ((b[l] << top1) & sign);
-            oc[l] = (uc[l] ^ sw[l]) ^ (((b[l] + one) << top1) & sign);
-        }
-        memcpy(s + LANES * p, os, sizeof os);
-        memcpy(c + LANES * p, oc, sizeof oc);
+        rh[l] = hi[l] + lo[l];
+        rl[l] = lo[l] - (rh[l] - hi[l]); /* fast two-sum: |lo| <= |hi| up to rounding */
+        z[l] = rh[l] * rh[l];
+        sr[l] = rh[l] + (rh[l] * z[l] * sin_tail(z[l]) + rl[l] * (FR(1) - FR(0.5) * z[l]));
+        hz[l] = FR(0.5) * z[l];
+        wv[l] = FR(1) - hz[l];
+        cr[l] = wv[l] + ((((FR(1) - wv[l]) - hz[l]) + z[l] * z[l] * cos_tail(z[l])) - rh[l] * rl[l]);
     }
+    memcpy(us, sr, sizeof us);
+    memcpy(uc, cr, sizeof uc);
+    for (l = 0; l < LANES; l++) {
+        /* k odd: swap sin and cos (both xor their difference); bit 1 of k (of k + 1
+         * for cos) shifted into the sign bit */
+        sw[l] = (us[l] ^ uc[l]) & ((ffwd_bits_)0 - (b[l] & one));
+        os[l] = (us[l] ^ sw[l]) ^ ((b[l] << top1) & sign);
+        oc[l] = (uc[l] ^ sw[l]) ^ (((b[l] + one) << top1) & sign);
+    }
+    memcpy(s, os, sizeof os);
+    memcpy(c, oc, sizeof oc);
 }
 
-/* One value: the pair routine with a zero second lane (one copy of the code). */
+ffwd_real ffwd_sincos_joints_(const ffwd_real *restrict q, const ffwd_real *restrict rv,
+                              const ffwd_real *restrict al, ffwd_real *restrict s,
+                              ffwd_real *restrict c, uint32_t n)
+{
+    ffwd_real ss[LANES] = { 0 };
+    uint32_t k;
+    for (k = 0; k < n; k += (uint32_t)LANES) {
+        /* the second lane of an odd last pair repeats the last joint (a select, no
+         * branch), so that nothing past q[n - 1] is read */
+        const uint32_t k1 = k + 1u < n ? k + 1u : k;
+        ffwd_real qv[LANES], xv[LANES];
+        int l;
+        qv[0] = q[k];
+        qv[1] = q[k1];
+        xv[0] = rv[k] * qv[0] + al[k];
+        xv[1] = rv[k1] * qv[1] + al[k1];
+        for (l = 0; l < LANES; l++)
+            ss[l] += qv[l] * qv[l];
+        sincos_lanes(xv, s + k, c + k);
+    }
+    return ss[0] + ss[1];
+}
+
+/* One value: x * 1 + (-0) is x exactly (a zero keeps its sign); the second lane is the
+ * same value (one copy of the code). */
 void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c)
 {
-    ffwd_real xs[2], ss[2], cs[2];
-    xs[0] = x;
-    xs[1] = FR(0);
-    ffwd_sincos_pairs_(xs, ss, cs, 1u);
+    const ffwd_real one = FR(1), mzero = -FR(0);
+    ffwd_real ss[LANES], cs[LANES];
+    (void)ffwd_sincos_joints_(&x, &one, &mzero, ss, cs, 1u);
     *s = ss[0];
     *c = cs[0];
 }

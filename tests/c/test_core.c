@@ -283,6 +283,7 @@ static void test_model_rules(void)
 }
 
 /* identities on random models */
+/* tree: 0 a chain, 1 random parents, 2 random parents and several children of the base */
 static void test_identities(int tree, int trials, uint32_t dof)
 {
     int t;
@@ -296,6 +297,9 @@ static void test_identities(int tree, int trials, uint32_t dof)
         static ffwd_real Y[13 * FFWD_MAX_DOF * FFWD_MAX_DOF];
         double scale, err;
         rand_model(&m, n, tree, 1);
+        if (tree == 2)  /* a forest: every third joint another child of the base */
+            for (i = 3; i < n; i += 3)
+                m.joint[i].parent = -1;
         if (t % 2) { m.tool_parent = (int32_t)(n / 2); rand_body(m.payload); }
         CHECK(ffwd_work_init(&w, &m) == FFWD_OK, "random model rejected");
         for (i = 0; i < n; i++) {
@@ -397,36 +401,53 @@ static void test_singular(void)
     CHECK(ffwd_forward_dynamics(&m, &w, q, z, z, out) == FFWD_E_SINGULAR && all_zero(out, 3), "zero pivot not singular");
 }
 
-/* the batched sin/cos of the joint transforms equals the scalar ffwd_sincos_ bit for bit
- * (internal functions, declared here) */
+/* the batched sin/cos of the joint angles equals the scalar ffwd_sincos_ of the same
+ * angle bit for bit, for an even and an odd count (nothing past q[n - 1] read: the odd
+ * count runs on the end of the array), and returns the sum of q^2 (the last q of an odd
+ * count twice) (internal functions, declared here) */
 void ffwd_sincos_(ffwd_real x, ffwd_real *s, ffwd_real *c);
-void ffwd_sincos_pairs_(const ffwd_real *x, ffwd_real *s, ffwd_real *c, uint32_t npairs);
+ffwd_real ffwd_sincos_joints_(const ffwd_real *q, const ffwd_real *rv, const ffwd_real *al,
+                              ffwd_real *s, ffwd_real *c, uint32_t n);
 
-static void test_sincos_pairs(void)
+static void test_sincos_joints(void)
 {
     enum { NX = 512 };
-    static ffwd_real x[NX], s[NX], c[NX];
+    static ffwd_real x[NX], rv[NX], al[NX], s[NX + 1], c[NX + 1];
     const double scale[4] = { 1e-3, 4.0, 100.0, 1e4 };
-    int i, bad = 0;
-    for (i = 0; i < NX; i++)
+    const uint32_t counts[2] = { NX, 7 };
+    int i, k, bad = 0;
+    for (i = 0; i < NX; i++) {
         x[i] = (ffwd_real)srand1(scale[i % 4]);
+        rv[i] = (ffwd_real)(i % 5 == 0 ? 0.0 : 1.0);        /* 0: a prismatic joint's angle */
+        al[i] = (ffwd_real)(i % 3 == 0 ? -0.0 : srand1(3.2)); /* offsets, -0 for none */
+    }
     for (i = 0; i < 40; i++)    /* multiples of pi/2 as the nearest ffwd_real */
         x[i] = (ffwd_real)(1.5707963267948966 * (double)(i - 20));
     x[41] = (ffwd_real)-0.0;
     x[43] = (ffwd_real)0.0;
-    ffwd_sincos_pairs_(x, s, c, NX / 2);
-    for (i = 0; i < NX; i++) {
-        ffwd_real a, b;
-        ffwd_sincos_(x[i], &a, &b);
-        if (memcmp(&a, &s[i], sizeof a) != 0 || memcmp(&b, &c[i], sizeof b) != 0)
-            bad++;
+    for (k = 0; k < 2; k++) {
+        const uint32_t n = counts[k];
+        const ffwd_real *q = x + (NX - n);
+        double ss = 0;
+        ffwd_real got;
+        got = ffwd_sincos_joints_(q, rv, al, s, c, n);
+        for (i = 0; i < (int)n; i++) {
+            ffwd_real a, b;
+            ffwd_sincos_(rv[i] * q[i] + al[i], &a, &b);
+            if (memcmp(&a, &s[i], sizeof a) != 0 || memcmp(&b, &c[i], sizeof b) != 0)
+                bad++;
+            ss += (double)q[i] * (double)q[i];
+        }
+        if (n & 1u)
+            ss += (double)q[n - 1] * (double)q[n - 1];
+        CHECK(fabs((double)got - ss) <= 1e-5 * ss, "sum of q^2 %g vs %g (n = %u)", (double)got, ss, (unsigned)n);
     }
-    CHECK(bad == 0, "batched sin/cos differs from ffwd_sincos_ at %d of %d points", bad, NX);
+    CHECK(bad == 0, "batched sin/cos differs from ffwd_sincos_ at %d points", bad);
 }
 
 int main(void)
 {
-    test_sincos_pairs();
+    test_sincos_joints();
     test_singular();
     test_status();
     test_pendulum();
@@ -435,6 +456,7 @@ int main(void)
     test_model_rules();
     test_identities(0, 20, N6);
     test_identities(1, 20, 7u);
+    test_identities(2, 20, 8u);
     test_identities(0, 2, FFWD_MAX_DOF);
     test_identities(1, 2, FFWD_MAX_DOF);
     return finish("test_core");
