@@ -219,3 +219,25 @@ def test_infeasible_path_is_located(backend):
     with pytest.raises(InfeasiblePath) as info:
         gov.run(1.0)
     assert info.value.joint == "j1" and info.value.limit == "torque" and info.value.index == 0
+
+
+@settings(deadline=None, max_examples=300)
+@given(st.floats(-50.0, -1e-6), st.floats(1.0, 1e5), st.sampled_from([1e-4, 5e-4, 1e-3, 4e-3]))
+def test_ramp_need_lies_in_the_band_the_c_core_tests_first(u, Vp, dt):
+    """The C core decides kn >= ramp_need(u) from the band c [r (r - 1), (r - 1/2)^2]
+    (c = Vp dt^2 / 2, r = -u / (Vp dt)) and computes ramp_need only inside it
+    (governor.c need_below, ramp_run). Derivation: with m = floor(r),
+    ramp_need / c = 2 m r - m (m + 1), a parabola in m whose values at m = r - 1 and
+    m = r are r (r - 1) and whose top, at m = r - 1/2, is (r - 1/2)^2 (algebra, no
+    source). Checked here against the twin's exact formula."""
+    from ffwd.twin.governor import GovernorTwin
+    g = GovernorTwin.__new__(GovernorTwin)
+    g.dt = dt
+    need = g.ramp_need(u, Vp)
+    h = Vp * dt
+    c, r = 0.5 * h * dt, -u / h
+    tol = 1e-9 * (r * r + 1.0) * c
+    if r >= 1.0:
+        assert c * r * (r - 1.0) - tol <= need <= c * (r - 0.5) ** 2 + tol
+    else:
+        assert need == 0.0
