@@ -1107,30 +1107,36 @@ static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
 /* Pass 1 of decel_cycles over a run of cycles that neither start a hold nor come to
  * rest (the ramps of u): the same steps as its loop without their rarer cases, the state
  * in registers (R: the loop's state in and out; prev: the run's last cycle). */
-/* box_join without a call (in the loop of ramp_run: no registers spilled around it) */
-static inline void box_flush(ffwd_governor *g, uint32_t i, ffwd_real kl, ffwd_real kh, ffwd_real ul,
-                             ffwd_real uh)
-{
-    ffwd_real *b = g->box[i];
-    if (!g->box_used[i]) {
-        g->box_used[i] = 1;
-        b[0] = kl;
-        b[1] = kh;
-        b[2] = ul;
-        b[3] = uh;
-    } else {
-        b[0] = minr(b[0], kl);
-        b[1] = maxr(b[1], kh);
-        b[2] = minr(b[2], ul);
-        b[3] = maxr(b[3], uh);
-    }
-}
-
 typedef struct {
     ffwd_real s, k, u, box[4], prev[3];
     uint32_t cycles, ip, bi;
     int wide;
 } ramp_state;
+
+/* The n cycles of a ramp run in segment ip (kappa from k1 down to kl, u from u1 to dl:
+ * up, a rising u) join the box being gathered, bi's (ip = bi: joined in place; else
+ * bi's is stored and ip's begins). */
+static inline void ramp_part(ffwd_governor *g, int up, uint32_t n, uint32_t ip, ffwd_real kl,
+                             ffwd_real k1, ffwd_real u1, ffwd_real dl, uint32_t *bi, ffwd_real *box)
+{
+    const ffwd_real lo = up ? u1 : dl, hi = up ? dl : u1;
+    if (n == 0u)
+        return;
+    if (*bi == ip) {
+        box[0] = minr(box[0], kl);
+        box[1] = maxr(box[1], k1);
+        box[2] = minr(box[2], lo);
+        box[3] = maxr(box[3], hi);
+        return;
+    }
+    if (*bi != FFWD_GOV_MAX_HORIZON)
+        box_join(g, *bi, box[0], box[1], box[2], box[3]);
+    *bi = ip;
+    box[0] = kl;
+    box[1] = k1;
+    box[2] = lo;
+    box[3] = hi;
+}
 
 static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state *R, ffwd_real send)
 {
@@ -1139,10 +1145,11 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
     /* the band of need_below, widened to 2e-9 r^2 >= 1e-9 (r^2 + 1) for r >= 1 */
     const ffwd_real wa = FR(1) + FR(2e-9), wb = FR(1) - FR(2e-9);
     const uint32_t imax = g->count - 2u, cmax = (uint32_t)FFWD_GOV_PLAN_CYCLES;
-    ffwd_real s = R->s, k = R->k, uu = R->u, b0 = R->box[0], b1 = R->box[1], b2 = R->box[2];
-    ffwd_real b3 = R->box[3], ps = FR(0), d, kn, r, k1 = FR(0), u1 = FR(0), dl = FR(0), kl = FR(0);
+    ffwd_real s = R->s, k = R->k, uu = R->u, box[4], ps = FR(0), d, kn, r;
+    ffwd_real k1 = FR(0), u1 = FR(0), dl = FR(0), kl = FR(0);
     uint32_t cycles = R->cycles, ip = R->ip, bi = R->bi, ib = (uint32_t)(s / ds), c0, n;
-    int wide = R->wide;
+    int wide = R->wide, up;
+    memcpy(box, R->box, sizeof box);
     if (!(D * ih <= FR(1e8)))
         return;                                 /* (r up to 1e8 below: ramp_need's m is not capped) */
     ib = ib > imax ? imax : ib;
@@ -1151,82 +1158,50 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
      * before its first) to dl (its last): joined to the box when the segment changes.
      * With ip the last cycle's segment, the first cycle of a run joins bi's box when it
      * is in bi (ip = bi then). */
-#define RAMP_SEG(up) do { \
-        if (n > 0u) { \
-            const ffwd_real lo = (up) ? u1 : dl, hi = (up) ? dl : u1; \
-            if (bi == ip && bi != FFWD_GOV_MAX_HORIZON) { \
-                b0 = minr(b0, kl); b1 = maxr(b1, k1); b2 = minr(b2, lo); b3 = maxr(b3, hi); \
-            } else { \
-                if (bi != FFWD_GOV_MAX_HORIZON) \
-                    box_flush(g, bi, b0, b1, b2, b3); \
-                bi = ip; b0 = kl; b1 = k1; b2 = lo; b3 = hi; \
-            } \
-        } \
-    } while (0)
     do {
         c0 = cycles;
-        /* down: u falls by h (d <= -h), kn surely above ramp_need(d): plan_act's d */
-        n = 0;
-        while (uu > -D && k > kmin && cycles < cmax && s <= send) {
-            d = maxr(uu - h, -D);
-            kn = k + d * dt;
-            r = -d * ih;
-            if (!(r >= FR(1) && kn >= c * ((wa * r - FR(1)) * r + FR(0.25))))
-                break;
-            if (ib != ip || n == 0u) {          /* a new segment (or the run's first cycle) */
-                RAMP_SEG(0);
-                wide |= ib > ip + 1u;
-                ip = ib;
-                k1 = k;
-                u1 = uu;
+        for (up = 0; up < 2; up++) {
+            n = 0;
+            while (uu > -D && k > kmin && cycles < cmax && s <= send) {
+                d = maxr(uu - h, -D);
+                kn = k + d * dt;
+                r = -d * ih;
+                if (!up) {
+                    /* down: u falls by h (d <= -h), kn surely above ramp_need(d) */
+                    if (!(r >= FR(1) && kn >= c * ((wa * r - FR(1)) * r + FR(0.25))))
+                        break;
+                } else {
+                    /* up: one more fall surely leaves kappa below ramp_need: u rises by h */
+                    if (!(kn <= FR(0) || (r >= FR(1) && kn < c * ((wb * r - FR(1)) * r))))
+                        break;
+                    d = minr(uu + h, FR(0));
+                    kn = k + d * dt;
+                    if (d < FR(0) && kn <= FR(0))
+                        break;                  /* rest in this cycle: decel_cycles */
+                }
+                if (ib != ip || n == 0u) {      /* a new segment (or the run's first cycle) */
+                    ramp_part(g, up, n, ip, kl, k1, u1, dl, &bi, box);
+                    wide |= ib > ip + 1u;
+                    ip = ib;
+                    k1 = k;
+                    u1 = uu;
+                }
+                n++;
+                cycles++;
+                kl = k;
+                dl = d;
+                ps = s;
+                s += k * dt + dt2 * d;
+                k = kn;
+                uu = d;
+                ib = (uint32_t)(s / ds);
+                ib = ib > imax ? imax : ib;
             }
-            n++;
-            cycles++;
-            kl = k;
-            dl = d;
-            ps = s;
-            s += k * dt + dt2 * d;
-            k = kn;
-            uu = d;
-            ib = (uint32_t)(s / ds);
-            ib = ib > imax ? imax : ib;
+            ramp_part(g, up, n, ip, kl, k1, u1, dl, &bi, box);
         }
-        RAMP_SEG(0);
-        /* up: one more fall surely leaves kappa below ramp_need: u rises by h */
-        n = 0;
-        while (uu > -D && k > kmin && cycles < cmax && s <= send) {
-            d = maxr(uu - h, -D);
-            kn = k + d * dt;
-            r = -d * ih;
-            if (!(kn <= FR(0) || (r >= FR(1) && kn < c * ((wb * r - FR(1)) * r))))
-                break;
-            d = minr(uu + h, FR(0));
-            kn = k + d * dt;
-            if (d < FR(0) && kn <= FR(0))
-                break;                          /* rest in this cycle: decel_cycles */
-            if (ib != ip || n == 0u) {
-                RAMP_SEG(1);
-                wide |= ib > ip + 1u;
-                ip = ib;
-                k1 = k;
-                u1 = uu;
-            }
-            n++;
-            cycles++;
-            kl = k;
-            dl = d;
-            ps = s;
-            s += k * dt + dt2 * d;
-            k = kn;
-            uu = d;
-            ib = (uint32_t)(s / ds);
-            ib = ib > imax ? imax : ib;
-        }
-        RAMP_SEG(1);
     } while (cycles != c0);
-#undef RAMP_SEG
     R->s = s; R->k = k; R->u = uu; R->cycles = cycles; R->ip = ip; R->bi = bi; R->wide = wide;
-    R->box[0] = b0; R->box[1] = b1; R->box[2] = b2; R->box[3] = b3;
+    memcpy(R->box, box, sizeof box);
     R->prev[0] = ps; R->prev[1] = kl; R->prev[2] = dl;
 }
 
