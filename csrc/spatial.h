@@ -391,10 +391,11 @@ static inline ffwd_real abs_real(ffwd_real x)
 #endif
 }
 
-/* clamp to [-1, 1] without a branch: (|x + 1| - |x - 1|) / 2 */
+/* clamp to [-1, 1] */
 static inline ffwd_real clamp1(ffwd_real x)
 {
-    return FR(0.5) * (abs_real(x + FR(1)) - abs_real(x - FR(1)));
+    const ffwd_real a = abs_real(x);
+    return a > FR(1) ? x / a : x;     /* exactly +-1 outside (x +- 1 would round to x past 2^53) */
 }
 
 /* max(a, b) for a >= 0 or NaN, b > 0, as one instruction without a branch: the compiler's

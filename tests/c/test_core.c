@@ -445,12 +445,39 @@ static void test_sincos_joints(void)
     CHECK(bad == 0, "batched sin/cos differs from ffwd_sincos_ at %d points", bad);
 }
 
+/* The regressor's Coulomb column is the clamp of qd / band to [-1, 1] at any ratio (the
+ * friction law of ffwd.h; it must equal ID's Coulomb term, here with a band so narrow
+ * that qd / band passes 2^53) */
+static void test_coulomb_column(void)
+{
+    ffwd_model m;
+    static ffwd_work w;
+    ffwd_real q = (ffwd_real)0.3, qdd = 0, Y[13], tau, tau0;
+    const ffwd_real qds[4] = { (ffwd_real)0.5, (ffwd_real)-0.5, (ffwd_real)1e-30, 0 };
+    int i;
+    pendulum_model(&m, 2.0, 0.5, 0.01);
+    m.joint[0].coulomb_band = (ffwd_real)1e-30;
+    m.joint[0].coulomb = (ffwd_real)3.0;
+    CHECK(ffwd_work_init(&w, &m) == FFWD_OK, "narrow band model rejected");
+    for (i = 0; i < 4; i++) {
+        ffwd_real qd = qds[i], zero = 0;
+        double expect = i == 0 ? 1.0 : (i == 1 ? -1.0 : (i == 2 ? 1.0 : 0.0));
+        CHECK(ffwd_regressor(&m, &w, &q, &qd, &qdd, Y) == FFWD_OK, "regressor status");
+        CHECK((double)Y[12] == expect, "Coulomb column %g for qd %g, expected %g", (double)Y[12], (double)qd, expect);
+        CHECK(ffwd_inverse_dynamics(&m, &w, &q, &qd, &qdd, &tau) == FFWD_OK
+              && ffwd_inverse_dynamics(&m, &w, &q, &zero, &qdd, &tau0) == FFWD_OK, "id status");
+        CHECK(fabs((double)(tau - tau0) - 3.0 * expect - (double)(m.joint[0].viscous * qd)) < 1e-9,
+              "ID's Coulomb term %g, expected %g", (double)(tau - tau0), 3.0 * expect);
+    }
+}
+
 int main(void)
 {
     test_sincos_joints();
     test_singular();
     test_status();
     test_pendulum();
+    test_coulomb_column();
     test_two_link();
     test_args();
     test_model_rules();
