@@ -6,6 +6,10 @@ time. Prints JSON (medians of repeated runs); asserts nothing.
 governor_step_us_median_6dof_h64: one control cycle of the C governor (push of the
   samples that fit, usually one, plus ffwd_governor_step), six_axis example robot,
   window 64 samples, dt = ds = 1 ms, command 100 %; median over all cycles of a path.
+governor_cycle_instructions_6dof_h64: the same cycles under valgrind's callgrind,
+  collection on inside ffwd_governor_push and ffwd_governor_step only: instructions per
+  cycle (repeatable where the times move with the machine's load; left out with
+  --no-instructions or without valgrind).
 offline_scaling_ms_1000: ffwd.scaling.time_optimal on the same robot and path with a
   1000-segment grid (torque parts through the C core when built), without the jerk
   pass (the time-optimal solve itself), median of runs.
@@ -13,8 +17,12 @@ offline_scaling_ms_1000: ffwd.scaling.time_optimal on the same robot and path wi
 import argparse
 import json
 import os
+import re
+import shutil
 import statistics
+import subprocess
 import sys
+import tempfile
 import time
 
 import numpy as np
@@ -46,18 +54,48 @@ def governor_cycles(robot, path, horizon=64, dt=0.001):
     return g.time_cycles(Q, DQ, DDQ, DDDQ, 1.0, 100000) / 1000.0   # us per cycle
 
 
+def cycle_instructions():
+    """Instructions per control cycle (push + step) over one run of the path, from
+    callgrind (None without valgrind)."""
+    if shutil.which("valgrind") is None:
+        return None
+    with tempfile.TemporaryDirectory(prefix="ffwd-cg-") as tmp:
+        cg = os.path.join(tmp, "cg.out")
+        res = subprocess.run(["valgrind", "--tool=callgrind", f"--callgrind-out-file={cg}",
+                              "--collect-atstart=no", "--toggle-collect=ffwd_governor_step",
+                              "--toggle-collect=ffwd_governor_push", sys.executable,
+                              os.path.abspath(__file__), "--cycles-only"],
+                             capture_output=True, text=True)
+        if res.returncode != 0:
+            raise OSError(f"callgrind run failed ({res.returncode}): {res.stderr[-500:]}")
+        cycles = json.loads(res.stdout.strip().splitlines()[-1])["cycles"]
+        with open(cg, encoding="utf-8", errors="replace") as fh:
+            m = re.search(r"^(?:totals|summary):\s+(\d+)", fh.read(), re.M)
+    if not m or not cycles:
+        raise OSError("no totals in the callgrind output of the governor run")
+    return int(m.group(1)) / cycles
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--no-instructions", action="store_true",
+                    help="leave out the callgrind count of the governor cycle")
+    ap.add_argument("--cycles-only", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     robot = ffwd.load(ROBOT)
     path = demo_path()
+    if args.cycles_only:      # the run callgrind counts (one pass over the path)
+        print(json.dumps({"cycles": int(len(governor_cycles(robot, path)))}))
+        return 0
     out = {}
     try:
         us = np.concatenate([governor_cycles(robot, path) for _ in range(args.repeat)])
         out["governor_step_us_median_6dof_h64"] = float(np.median(us))
         out["governor_step_us_p99_6dof_h64"] = float(np.percentile(us, 99))
         out["governor_step_us_max_6dof_h64"] = float(us.max())
+        if not args.no_instructions:
+            out["governor_cycle_instructions_6dof_h64"] = cycle_instructions()
     except ImportError as exc:
         out["governor_step_us_median_6dof_h64"] = None
         out["governor_note"] = f"ffwd._governor not built: {exc}"
