@@ -781,19 +781,29 @@ static plan_k plan_consts(const ffwd_governor *g, ffwd_real D, ffwd_real Vp)
     return P;
 }
 
-/* kn >= ramp_need(d) (d < 0), mostly without its division and floor: with r = -d / h and
- * m = floor(r), ramp_need = h dt (m r - m (m + 1) / 2) lies in c [r (r - 1), (r - 1/2)^2]
- * (the parabola in m between m = r - 1 and m = r), so only a kn within that band
- * (widened far beyond rounding) needs the exact value: the answer is ramp_need's. */
+/* The band that holds ramp_need(d) for d = -r h, r >= 1: with m = floor(r),
+ * ramp_need = h dt (m r - m (m + 1) / 2) lies in c [r (r - 1), (r - 1/2)^2] (the parabola
+ * in m between m = r - 1 and m = r), here widened by 2e-9 r^2, far beyond rounding. A kn
+ * above the band is surely >= ramp_need(d) (band_above), one below it surely < (band_below). */
+static inline int band_above(const plan_k *P, ffwd_real kn, ffwd_real r)
+{
+    return kn >= P->c * (((FR(1) + FR(2e-9)) * r - FR(1)) * r + FR(0.25));
+}
+
+static inline int band_below(const plan_k *P, ffwd_real kn, ffwd_real r)
+{
+    return kn < P->c * (((FR(1) - FR(2e-9)) * r - FR(1)) * r);
+}
+
+/* kn >= ramp_need(d) (d < 0), its division and floor only for a kn inside the band: the
+ * answer is ramp_need's. */
 static inline int need_below(const ffwd_governor *g, const plan_k *P, ffwd_real kn, ffwd_real d)
 {
     const ffwd_real r = -d * P->ih;
-    ffwd_real tol;
     if (r >= FR(1) && r <= FR(1e8)) {
-        tol = FR(1e-9) * (r * r + FR(1));
-        if (kn >= P->c * ((r - FR(0.5)) * (r - FR(0.5)) + tol))
+        if (band_above(P, kn, r))
             return 1;
-        if (kn < P->c * (r * (r - FR(1)) - tol))
+        if (band_below(P, kn, r))
             return 0;
     }
     return kn >= ramp_need(g, d, P->Vp);
@@ -1113,37 +1123,42 @@ typedef struct {
     int wide;
 } ramp_state;
 
-/* The n cycles of a ramp run in segment ip (kappa from k1 down to kl, u from u1 to dl:
- * up, a rising u) join the box being gathered, bi's (ip = bi: joined in place; else
- * bi's is stored and ip's begins). */
-static inline void ramp_part(ffwd_governor *g, int up, uint32_t n, uint32_t ip, ffwd_real kl,
-                             ffwd_real k1, ffwd_real u1, ffwd_real dl, uint32_t *bi, ffwd_real *box)
+/* Pass 1 gathers the box of the segment its cycles are in (gathered segment *bi, or
+ * FFWD_GOV_MAX_HORIZON: none yet) and joins it to the segment's box when the cycles move
+ * on. gather: n cycles in segment i with kappa in [kl, kh] and u in [ul, uh]; gather_end:
+ * the gathered box joined, none left. */
+static inline void gather(ffwd_governor *g, uint32_t n, uint32_t i, ffwd_real kl, ffwd_real kh,
+                          ffwd_real ul, ffwd_real uh, uint32_t *bi, ffwd_real *box)
 {
-    const ffwd_real lo = up ? u1 : dl, hi = up ? dl : u1;
     if (n == 0u)
         return;
-    if (*bi == ip) {
+    if (*bi == i) {
         box[0] = minr(box[0], kl);
-        box[1] = maxr(box[1], k1);
-        box[2] = minr(box[2], lo);
-        box[3] = maxr(box[3], hi);
+        box[1] = maxr(box[1], kh);
+        box[2] = minr(box[2], ul);
+        box[3] = maxr(box[3], uh);
         return;
     }
     if (*bi != FFWD_GOV_MAX_HORIZON)
         box_join(g, *bi, box[0], box[1], box[2], box[3]);
-    *bi = ip;
+    *bi = i;
     box[0] = kl;
-    box[1] = k1;
-    box[2] = lo;
-    box[3] = hi;
+    box[1] = kh;
+    box[2] = ul;
+    box[3] = uh;
+}
+
+static inline void gather_end(ffwd_governor *g, uint32_t *bi, const ffwd_real *box)
+{
+    if (*bi != FFWD_GOV_MAX_HORIZON)
+        box_join(g, *bi, box[0], box[1], box[2], box[3]);
+    *bi = FFWD_GOV_MAX_HORIZON;
 }
 
 static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state *R, ffwd_real send)
 {
-    const ffwd_real dt = P->dt, h = P->h, D = P->D, c = P->c, ih = P->ih;
+    const ffwd_real dt = P->dt, h = P->h, D = P->D, ih = P->ih;
     const ffwd_real kmin = minr(h * dt, D * dt), dt2 = FR(0.5) * dt * dt, ds = g->cfg.ds;
-    /* the band of need_below, widened to 2e-9 r^2 >= 1e-9 (r^2 + 1) for r >= 1 */
-    const ffwd_real wa = FR(1) + FR(2e-9), wb = FR(1) - FR(2e-9);
     const uint32_t imax = g->count - 2u, cmax = (uint32_t)FFWD_GOV_PLAN_CYCLES;
     ffwd_real s = R->s, k = R->k, uu = R->u, box[4], ps = FR(0), d, kn, r;
     ffwd_real k1 = FR(0), u1 = FR(0), dl = FR(0), kl = FR(0);
@@ -1153,11 +1168,9 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
     if (!(D * ih <= FR(1e8)))
         return;                                 /* (r up to 1e8 below: ramp_need's m is not capped) */
     ib = ib > imax ? imax : ib;
-    /* Along a run kappa falls (d < 0, or d <= 0 rising to 0) and u moves one way, so a
-     * segment's cycles in it span kappa [kl, k1] (last, first) and u from u1 (the u
-     * before its first) to dl (its last): joined to the box when the segment changes.
-     * With ip the last cycle's segment, the first cycle of a run joins bi's box when it
-     * is in bi (ip = bi then). */
+    /* Along a run kappa falls (d < 0, or d <= 0 rising to 0) and u moves one way, so the
+     * n cycles of a segment in it span kappa [kl, k1] (last, first) and u from u1 (the u
+     * before its first) to dl (its last): gathered when the segment changes. */
     do {
         c0 = cycles;
         for (up = 0; up < 2; up++) {
@@ -1168,11 +1181,11 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
                 r = -d * ih;
                 if (!up) {
                     /* down: u falls by h (d <= -h), kn surely above ramp_need(d) */
-                    if (!(r >= FR(1) && kn >= c * ((wa * r - FR(1)) * r + FR(0.25))))
+                    if (!(r >= FR(1) && band_above(P, kn, r)))
                         break;
                 } else {
                     /* up: one more fall surely leaves kappa below ramp_need: u rises by h */
-                    if (!(kn <= FR(0) || (r >= FR(1) && kn < c * ((wb * r - FR(1)) * r))))
+                    if (!(kn <= FR(0) || (r >= FR(1) && band_below(P, kn, r))))
                         break;
                     d = minr(uu + h, FR(0));
                     kn = k + d * dt;
@@ -1180,7 +1193,7 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
                         break;                  /* rest in this cycle: decel_cycles */
                 }
                 if (ib != ip || n == 0u) {      /* a new segment (or the run's first cycle) */
-                    ramp_part(g, up, n, ip, kl, k1, u1, dl, &bi, box);
+                    gather(g, n, ip, kl, k1, up ? u1 : dl, up ? dl : u1, &bi, box);
                     wide |= ib > ip + 1u;
                     ip = ib;
                     k1 = k;
@@ -1197,7 +1210,7 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
                 ib = (uint32_t)(s / ds);
                 ib = ib > imax ? imax : ib;
             }
-            ramp_part(g, up, n, ip, kl, k1, u1, dl, &bi, box);
+            gather(g, n, ip, kl, k1, up ? u1 : dl, up ? dl : u1, &bi, box);
         }
     } while (cycles != c0);
     R->s = s; R->k = k; R->u = uu; R->cycles = cycles; R->ip = ip; R->bi = bi; R->wide = wide;
@@ -1217,7 +1230,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
     const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt, dt2 = FR(0.5) * dt * dt;
     const ffwd_real send = (ffwd_real)(g->count - 1u) * ds;
     ffwd_real s = sig, k = kap, uu = u;
-    ffwd_real bk0 = FR(0), bk1 = FR(0), bu0 = FR(0), bu1 = FR(0);   /* segment bi's box so far */
+    ffwd_real box[4] = { 0 };              /* gathered, of segment bi (pass 1) */
     uint32_t cycles = 0, exact = 0, i, ip = 0, bi = FFWD_GOV_MAX_HORIZON;
     int wide = 0, first = 1;
     while (k > FR(0)) {
@@ -1238,9 +1251,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
                 ffwd_real mr = (ffwd_real)mk;
                 wide |= i > ip + 1u || k * dt >= ds;   /* a step over a whole segment */
                 if (pass == 1) {
-                    if (bi != FFWD_GOV_MAX_HORIZON)
-                        box_join(g, bi, bk0, bk1, bu0, bu1);
-                    bi = FFWD_GOV_MAX_HORIZON;
+                    gather_end(g, &bi, box);
                     hold_boxes(g, s, k, D, last[0]);
                 }
                 cycles += (uint32_t)mk;
@@ -1254,10 +1265,10 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         if (pass == 1 && !first && uu != -D) {
             ramp_state R;
             R.s = s; R.k = k; R.u = uu; R.cycles = cycles; R.ip = ip; R.bi = bi; R.wide = wide;
-            R.box[0] = bk0; R.box[1] = bk1; R.box[2] = bu0; R.box[3] = bu1;
+            memcpy(R.box, box, sizeof box);
             ramp_run(g, &P, &R, send);
             s = R.s; k = R.k; uu = R.u; ip = R.ip; bi = R.bi; wide = R.wide;
-            bk0 = R.box[0]; bk1 = R.box[1]; bu0 = R.box[2]; bu1 = R.box[3];
+            memcpy(box, R.box, sizeof box);
             if (R.cycles != cycles)
                 memcpy(g->cyc_prev, R.prev, sizeof R.prev);
             cycles = R.cycles;
@@ -1286,23 +1297,8 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         g->cyc_prev[2] = un;
         ip = i;
         first = 0;
-        if (pass == 1) {   /* the box of kappa and u (this cycle's and the one before) */
-            const ffwd_real ul = minr(uu, un), uh = maxr(uu, un);
-            if (i != bi) {
-                if (bi != FFWD_GOV_MAX_HORIZON)
-                    box_join(g, bi, bk0, bk1, bu0, bu1);
-                bi = i;
-                bk0 = k;
-                bk1 = k;
-                bu0 = ul;
-                bu1 = uh;
-            } else {
-                bk0 = minr(bk0, k);
-                bk1 = maxr(bk1, k);
-                bu0 = minr(bu0, ul);
-                bu1 = maxr(bu1, uh);
-            }
-        }
+        if (pass == 1)   /* the box of kappa and u (this cycle's and the one before) */
+            gather(g, 1u, i, k, k, minr(uu, un), maxr(uu, un), &bi, box);
         if (un < FR(0) && k + un * dt <= FR(0)) {
             if (-un > Vp * dt * (FR(1) + FR(1e-9)))   /* u drops to 0 at rest: one cycle's change */
                 return 0;
@@ -1317,8 +1313,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
     }
     if (s > send)
         return 0;
-    if (bi != FFWD_GOV_MAX_HORIZON)
-        box_join(g, bi, bk0, bk1, bu0, bu1);
+    gather_end(g, &bi, box);
     memcpy(g->cyc_last, g->cyc_prev, sizeof g->cyc_last);
     return wide ? 2 : 1;
 }
