@@ -634,6 +634,43 @@ static FFWD_NOINLINE int gravity_pass_call(const ffwd_model *m, ffwd_work *w, co
     return gravity_pass(m, w, q, tau);
 }
 
+static FFWD_NOINLINE int id_pass_drive(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                                       const ffwd_real *qdd, ffwd_real *tau)
+{
+    return id_pass(m, w, qd, qdd, m->gravity, tau, 1);
+}
+
+/* Two inverse dynamics and the gravity torque at one q (spatial.h): one sin/cos of q
+ * for the three; each result bit for bit the public call's. */
+ffwd_status ffwd_id_pair_gravity_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
+                                  const ffwd_real *qd1, const ffwd_real *qdd1, ffwd_real *tau1,
+                                  const ffwd_real *qd2, const ffwd_real *qdd2, ffwd_real *tau2,
+                                  ffwd_real *grav)
+{
+    ffwd_status st;
+    int ok;
+    if (!(qd1 != NULL && qdd1 != NULL && tau1 != NULL && qd2 != NULL && qdd2 != NULL && tau2 != NULL
+          && grav != NULL && ffwd_ready_(m, w, q, NULL, NULL) && ffwd_trig_(m, w, q))) {
+        /* the public calls find and report the reason, outputs zeroed */
+        st = ffwd_inverse_dynamics(m, w, q, qd1, qdd1, tau1);
+        if (st == FFWD_OK)
+            st = ffwd_inverse_dynamics(m, w, q, qd2, qdd2, tau2);
+        if (st == FFWD_OK)
+            st = ffwd_gravity_torque(m, w, q, grav);
+        return st;
+    }
+    ffwd_tool_body_(m, w);
+    ok = id_pass_drive(m, w, qd1, qdd1, tau1);
+    ok &= id_pass_drive(m, w, qd2, qdd2, tau2);
+    ok &= gravity_pass_call(m, w, q, grav);
+    if (ok)
+        return FFWD_OK;
+    ffwd_zero_(tau1, m->dof); /* an overflow inside: never hand out Inf or NaN */
+    ffwd_zero_(tau2, m->dof);
+    ffwd_zero_(grav, m->dof);
+    return FFWD_E_NONFINITE;
+}
+
 ffwd_status ffwd_torque_parts(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
                               const ffwd_real *qd, const ffwd_real *qdd, ffwd_real *inertial,
                               ffwd_real *velocity, ffwd_real *gravity, ffwd_real *friction)

@@ -154,6 +154,7 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->try_first = 1u;
     g->try_last = 0u;
     g->mins_ok = 0u;
+    g->clean = 0u;
     g->vp_min = BIG;
     g->dr_min = BIG;
     /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
@@ -227,13 +228,7 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     }
     /* a = M q' = ID(q, 0, q') - g ;  b = M q'' + C(q, q') q' = ID(q, q', q'') - g - friction(q') */
     ffwd_zero_(zero, FFWD_MAX_DOF);
-    st = ffwd_gravity_torque(m, g->work, q, grav);
-    if (st != FFWD_OK)
-        return st;
-    st = ffwd_inverse_dynamics(m, g->work, q, zero, dq, a);
-    if (st != FFWD_OK)
-        return st;
-    st = ffwd_inverse_dynamics(m, g->work, q, dq, ddq, iner);
+    st = ffwd_id_pair_gravity_(m, g->work, q, zero, dq, a, dq, ddq, iner, grav);
     if (st != FFWD_OK)
         return st;
     sl = slot_at(g, g->count);
@@ -336,6 +331,8 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     if (g->count > 0u) {
         ffwd_gov_slot *pv = slot_at(g, g->count - 1u);
         pv->fit_ok = 0u;            /* its x_max may drop below: no box kept from before */
+        if (g->clean > g->count - 1u)
+            g->clean = g->count - 1u;   /* nor its x_safe (it was the end's) */
         for (j = 0; j < n; j++) {
             const ffwd_joint *J = &m->joint[j];
             if (pv->dq[j] * dq[j] <= FR(0)) {
@@ -466,10 +463,15 @@ static void backward_pass(ffwd_governor *g)
         for (p = 0; p < next->ncols; p++)
             L1 = maxr(L1, (next->bA[p] - FR(1)) * X1 + next->bB[p] * k1 + next->bC[p]);
         best = minr(best, maxr(X1 - L1, FR(0)));
+        /* samples 0 .. i - 1 as the last pass saw them and the same x here (bit for
+         * bit): every x_safe before is the last pass's */
+        if (i - 1u < g->clean && memcmp(&best, &sl->x_safe, sizeof best) == 0)
+            break;
         sl->x_safe = best;
         X1 = best;
         next = sl;
     }
+    g->clean = g->count;
     g->dirty = 0;
 }
 
@@ -1556,11 +1558,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         out->qdd[j] = d2[j] * x;
         zq[j] = FR(0);
     }
-    st = ffwd_inverse_dynamics(m, g->work, out->q, out->qd, out->qdd, tau0);
-    if (st == FFWD_OK)
-        st = ffwd_inverse_dynamics(m, g->work, out->q, zq, d1, ta);
-    if (st == FFWD_OK)
-        st = ffwd_gravity_torque(m, g->work, out->q, gq);
+    st = ffwd_id_pair_gravity_(m, g->work, out->q, out->qd, out->qdd, tau0, zq, d1, ta, gq);
     if (st != FFWD_OK) {
         ffwd_zero_(out->q, FFWD_MAX_DOF);
         ffwd_zero_(out->qd, FFWD_MAX_DOF);
@@ -1781,6 +1779,8 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
             sig -= ds;
             if (gone->vp == g->vp_min || gone->dr == g->dr_min)
                 g->mins_ok = 0u;
+            if (g->clean > 0u)
+                g->clean--;
             g->head = (g->head + 1u) % g->cfg.horizon;
             g->count--;
             g->base++;

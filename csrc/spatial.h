@@ -145,6 +145,14 @@ ffwd_status ffwd_enter_(const ffwd_model *m, const ffwd_work *w, const ffwd_real
  * NaN and Inf fail), else 0: the caller then runs ffwd_enter_, which tests the q[i] one
  * by one, and calls ffwd_trig_ again if none fails (see ffwd_ready_). */
 int ffwd_trig_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);
+/* tau1 = ffwd_inverse_dynamics(q, qd1, qdd1), tau2 = the same at (q, qd2, qdd2) and
+ * grav = ffwd_gravity_torque(q), bit for bit, with one sin/cos of q (dynamics.c; the
+ * governor's evaluations at a path point). An error is the first one those public calls,
+ * in that order, would give. */
+ffwd_status ffwd_id_pair_gravity_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
+                                  const ffwd_real *qd1, const ffwd_real *qdd1, ffwd_real *tau1,
+                                  const ffwd_real *qd2, const ffwd_real *qdd2, ffwd_real *tau2,
+                                  ffwd_real *grav);
 /* Full R = E0 Rz(theta), p of every body (aligned frames) into the work's body area
  * (dynamics.c); calls ffwd_trig_ and returns what it returns. */
 int ffwd_transforms_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q);

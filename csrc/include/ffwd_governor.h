@@ -133,6 +133,9 @@ typedef struct ffwd_governor {
     uint32_t try_first, try_last;  /* the samples the fastest stop tried last wrote */
     ffwd_real vp_min, dr_min;   /* the least vp and dr of the window's samples (mins_ok 1: */
     uint32_t mins_ok;           /* kept; 0: to be found again) */
+    uint32_t clean;             /* the first `clean` samples are as the last backward pass
+                                   saw them (rows, x_safe): where it meets one of their
+                                   x_safe again, the rest is unchanged */
     ffwd_gov_slot slot[FFWD_GOV_MAX_HORIZON];
     /* scratch of the plan D check: per window segment the box of the plan's states
      * (kappa low, high, u low, high) and whether a cycle starts there (box_used 1; 2:
