@@ -305,8 +305,9 @@ static FFWD_NOINLINE void body_forces(ffwd_real *ids, const ffwd_real *K, uint32
  * to its parent stays in registers where the parent is the next body down (every joint
  * of a chain); otherwise it is added into the parent's own force. Returns 1 when every
  * torque is finite. */
-static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
-                               const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
+static PASS_INLINE int id_pass_k(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                                 const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive,
+                                 int crev)
 {
     ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
@@ -319,11 +320,12 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *K = KONST(w, i);
         ffwd_real *S = ids + i;
-        const int rev = J->type == FFWD_REVOLUTE, kind = e0_kind(K);
+        const int rev = crev || J->type == FFWD_REVOLUTE, kind = e0_kind(K);
+        const int32_t jp = crev ? (int32_t)i - 1 : J->parent;
         ffwd_real c, s, dq, ddq, w0, w1, w2, d0, d1, d2, a0, a1, a2, x0, x1, x2;
-        if (J->parent >= 0) {
+        if (jp >= 0) {
             /* the origin acceleration al + wd x p + w x (w x p) of the parent's motion */
-            const ffwd_real *P = ids + J->parent, *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
+            const ffwd_real *P = ids + jp, *p = rev ? K + FFWD_K_P : BODY(w, i) + 9;
             const ffwd_real p0 = p[0], p1 = p[1], p2 = p[2];
             const ffwd_real t0 = P[IE(1)] * p2 - P[IE(2)] * p1, t1 = P[IE(2)] * p0 - P[IE(0)] * p2;
             const ffwd_real t2 = P[IE(0)] * p1 - P[IE(1)] * p0;
@@ -405,8 +407,8 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
     for (i = n; i-- > 0u;) {
         const ffwd_joint *J = &m->joint[i];
         const ffwd_real *S = ids + i;
-        const int rev = J->type == FFWD_REVOLUTE;
-        const int32_t par = J->parent;
+        const int rev = crev || J->type == FFWD_REVOLUTE;
+        const int32_t par = crev ? (int32_t)i - 1 : J->parent;
         /* body i's own force plus that of body i + 1 where i is its parent (cf, cn) */
         const ffwd_real f0 = S[IE(9)] + cf0, f1 = S[IE(10)] + cf1, f2 = S[IE(11)] + cf2;
         const ffwd_real n0 = S[IE(12)] + cn0, n1 = S[IE(13)] + cn1, n2 = S[IE(14)] + cn2;
@@ -458,6 +460,18 @@ static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_rea
         }
     }
     return acc == FR(0);
+}
+
+/* id_pass; a serial chain of revolute joints (the common arm) takes a copy of it in which
+ * the joint type and parent are constants (where the passes are inlined) */
+static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
+                               const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
+{
+#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
+    if (w->scratch[FFWD_OFF_CHAIN] != FR(0) && w->scratch[FFWD_OFF_NPRIS] == FR(0))
+        return id_pass_k(m, w, qd, qdd, g, tau, drive, 1);
+#endif
+    return id_pass_k(m, w, qd, qdd, g, tau, drive, 0);
 }
 
 ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
