@@ -201,7 +201,7 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
     ffwd_real *a, *grav, *iner, *zero;
     ffwd_real *lB, *lG, *lD, *uB, *uG, *uD;
     ffwd_real keep, ds, X, r;
-    uint32_t n, j, p, i, cols;
+    uint32_t n, j, p, i, cols, hint;
     ffwd_status st;
     if (g == NULL || g->model == NULL || q == NULL || dq == NULL || ddq == NULL || dddq == NULL)
         return FFWD_E_ARG;
@@ -354,14 +354,22 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
             }
         }
     }
-    /* keep the lower bounds that are the largest somewhere on [0, sqrt(X)] */
+    /* keep the lower bounds that are the largest somewhere on [0, sqrt(X)] (each is
+     * tried against the others from the last one found above another: the answer is the
+     * same in any order, and one bound is often above many) */
     sl->ncols = 0;
     r = sqrt0(X);
+    hint = 0;
     for (i = 0; i < cols; i++) {
         int dominated = 0;
-        for (p = 0; p < cols && !dominated; p++) {
-            ffwd_real dB = lB[p] - lB[i], dG = lG[p] - lG[i], dD = lD[p] - lD[i];
+        uint32_t t;
+        for (t = 0; t < cols && !dominated; t++) {
+            ffwd_real dB, dG, dD;
             int ok;
+            p = hint + t < cols ? hint + t : hint + t - cols;
+            dB = lB[p] - lB[i];
+            dG = lG[p] - lG[i];
+            dD = lD[p] - lD[i];
             if (p == i)
                 continue;
             if (dB == FR(0) && dG == FR(0) && dD == FR(0)) {
@@ -376,7 +384,9 @@ ffwd_status ffwd_governor_push(ffwd_governor *g, const ffwd_real *q, const ffwd_
             }
             dominated |= ok;
         }
-        if (!dominated) {
+        if (dominated) {
+            hint = p;
+        } else {
             sl->bA[sl->ncols] = FR(1) + FR(2) * ds * lB[i];
             sl->bB[sl->ncols] = FR(2) * ds * lG[i];
             sl->bC[sl->ncols] = FR(2) * ds * lD[i];
