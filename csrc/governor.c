@@ -1424,7 +1424,10 @@ static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int
     if (!every)
         nd = 2;
     for (c = 0; c < nd; c++) {
-        if (Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp)) {
+        uint32_t e, same = 0;
+        for (e = 0; e < c; e++)
+            same |= Ds[e] == Ds[c];                /* tried already (the stored D is often Dr) */
+        if (!same && Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp)) {
             *D = Ds[c];
             return (int)FFWD_GOV_PLAN_DECEL;
         }

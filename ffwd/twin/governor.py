@@ -870,7 +870,9 @@ class GovernorTwin:
             return ("P",)
         Ds = [self.plan[1]] if self.plan is not None and self.plan[0] == "D" else []
         Ds = (Ds + [Dr, 0.5 * Dr, 0.25 * Dr])[:4 if every else 2]
-        for D in Ds:
+        for c, D in enumerate(Ds):
+            if D in Ds[:c]:
+                continue                    # tried already (the stored D is often Dr)
             if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0):
                 return ("D", D, Vp)
         return None
