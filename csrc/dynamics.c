@@ -526,7 +526,8 @@ void ffwd_subtree_(const ffwd_model *m, ffwd_work *w)
 /* Gravity only: rotate g into each frame going out, accumulate mass and first moment
  * of each subtree coming back; tau_i = e_z . (g x h) (revolute), -M e_z . g
  * (prismatic). Needs ffwd_trig_. B(i): g at 12, (M, h) at 18 (not for a chain). */
-static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+static PASS_INLINE int gravity_pass_k(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau,
+                                      int crev)
 {
     ffwd_real acc = FR(0); /* sum of t * 0 over the torques: 0, or NaN after an Inf or NaN */
     const ffwd_real *sb = TRIG_S(w), *cb = TRIG_C(w);
@@ -541,23 +542,27 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
         const uint32_t n = m->dof;
         const ffwd_real *K = KONST(w, 0), *S;
         ffwd_real *B = BODY(w, 0);
-        ffwd_real g0, g1, g2, u0, u1, u2, c0 = FR(0), c1 = FR(0), c2 = FR(0);
+        ffwd_real g0, g1, g2, u0, u1, u2, c0, c1, c2, h0, h1, h2;
         g0 = m->gravity[0]; g1 = m->gravity[1]; g2 = m->gravity[2];
         for (i = 0; i < n; i++) {
             E0T(e0_kind(K), K, g0, g1, g2, u0, u1, u2);
             RZT(cb[i], sb[i], u0, u1, u2, g0, g1, g2);
-            B[12] = g0; B[13] = g1; B[14] = g2;
+            B[12] = g0; B[13] = g1;
+            if (!crev)
+                B[14] = g2;             /* (read by a prismatic joint only) */
             K += FFWD_K_STRIDE;
             B += FFWD_B_STRIDE;
         }
         K -= FFWD_K_STRIDE;
         B -= FFWD_B_STRIDE;
         S = SUB(w, n - 1u);
+        h0 = S[1];          /* the first moment of the subtree: the last body's own, then */
+        h1 = S[2];          /* the body's constant part plus its children's (c) */
+        h2 = S[3];
         for (i = n - 1u; i > 0u; i--) {
-            const ffwd_real h0 = S[1] + c0, h1 = S[2] + c1, h2 = S[3] + c2;
             ffwd_real t;
             RZ(cb[i], sb[i], h0, h1, h2, u0, u1, u2);
-            if (joint_type(K) == FFWD_REVOLUTE) {
+            if (crev || joint_type(K) == FFWD_REVOLUTE) {
                 t = B[12] * h1 - B[13] * h0;
             } else {
                 /* the slide q e_z of the child's origin (frame i before E0) */
@@ -570,9 +575,12 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
             K -= FFWD_K_STRIDE;
             B -= FFWD_B_STRIDE;
             S -= FFWD_SUB_STRIDE;
+            h0 = S[1] + c0;
+            h1 = S[2] + c1;
+            h2 = S[3] + c2;
         }
         {
-            const ffwd_real t = joint_type(K) == FFWD_REVOLUTE ? B[12] * (S[2] + c1) - B[13] * (S[1] + c0)
+            const ffwd_real t = crev || joint_type(K) == FFWD_REVOLUTE ? B[12] * h1 - B[13] * h0
                                                                 : -S[0] * B[14];
             tau[0] = t;
             acc += t * FR(0);
@@ -613,6 +621,17 @@ static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffw
         }
     }
     return acc == FR(0);
+}
+
+/* gravity_pass; a serial chain of revolute joints takes a copy of it in which the joint
+ * type is a constant (where the passes are inlined), as id_pass */
+static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
+{
+#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
+    if (w->scratch[FFWD_OFF_CHAIN] != FR(0) && w->scratch[FFWD_OFF_NPRIS] == FR(0))
+        return gravity_pass_k(m, w, q, tau, 1);
+#endif
+    return gravity_pass_k(m, w, q, tau, 0);
 }
 
 ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
