@@ -50,7 +50,7 @@ static ffwd_real gov_sqrt_newton(ffwd_real x)
 static inline ffwd_real sqrt0(ffwd_real x) { return GOV_SQRT(x > FR(0) ? x : FR(0)); }
 static inline ffwd_real minr(ffwd_real a, ffwd_real b) { return b < a ? b : a; }
 static inline ffwd_real maxr(ffwd_real a, ffwd_real b) { return b > a ? b : a; }
-static inline ffwd_real absr(ffwd_real a) { return a < FR(0) ? -a : a; }
+static inline ffwd_real absr(ffwd_real a) { return abs_real(a); }   /* (spatial.h: no branch) */
 static inline ffwd_real sgnr(ffwd_real a) { return a > FR(0) ? FR(1) : (a < FR(0) ? FR(-1) : FR(0)); }
 
 /* Largest k >= 0 with A t^2 + B t + C <= 0 on all of [0, k], given C <= 0
