@@ -91,6 +91,18 @@ static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
     return (ffwd_gov_slot *)slot_at_c(g, k);   /* g is not const: the slot may be written */
 }
 
+/* The slot after and before sl in the ring (a walk over the window without index
+ * arithmetic). */
+static inline ffwd_gov_slot *ring_next(ffwd_governor *g, ffwd_gov_slot *sl)
+{
+    return sl + 1 == g->slot + g->cfg.horizon ? g->slot : sl + 1;
+}
+
+static inline ffwd_gov_slot *ring_prev(ffwd_governor *g, ffwd_gov_slot *sl)
+{
+    return sl == g->slot ? g->slot + (g->cfg.horizon - 1u) : sl - 1;
+}
+
 static int cfg_finite(const ffwd_gov_config *c)
 {
     ffwd_real v[6];
@@ -457,15 +469,17 @@ static void backward_pass(ffwd_governor *g)
 {
     uint32_t i, p;
     ffwd_real X1, L1, k1;
-    const ffwd_gov_slot *next;
+    ffwd_gov_slot *sl, *next;
     if (g->count == 0u)
         return;
-    next = slot_at(g, g->count - 1u);
-    slot_at(g, g->count - 1u)->x_safe = FR(0);
+    sl = slot_at(g, g->count - 1u);
+    sl->x_safe = FR(0);
     X1 = FR(0);
     for (i = g->count - 1u; i > 0u; i--) {
-        ffwd_gov_slot *sl = slot_at(g, i - 1u);
-        ffwd_real best = sl->x_max;
+        ffwd_real best;
+        next = sl;
+        sl = ring_prev(g, sl);          /* sample i - 1 */
+        best = sl->x_max;
         k1 = sqrt0(X1);
         L1 = -BIG;                      /* 2 ds times the next sample's lower bound at X1 */
         for (p = 0; p < sl->ncols; p++)
@@ -479,7 +493,6 @@ static void backward_pass(ffwd_governor *g)
             break;
         sl->x_safe = best;
         X1 = best;
-        next = sl;
     }
     g->clean = g->count;
     g->dirty = 0;
@@ -1089,11 +1102,11 @@ static int cycles_jerk_ok(ffwd_governor *g, const ffwd_real *a, const ffwd_real 
  * at constant u whose next u differs by at most Vp dt is at most
  *   dt (B3 kappa^3 + 3 B2 kappa |u| + B1 Vp)
  * (d/dt (q'' kappa^2 + q' u) = q''' kappa^3 + 3 q'' kappa u + q' du/dt). */
-static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, ffwd_real Vp)
+static int seg_jerk_safe(const ffwd_governor *g, uint32_t a, const ffwd_gov_slot *sa,
+                         const ffwd_gov_slot *sb, ffwd_real Vp)
 {
     const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
     const uint32_t nseg = g->count - 1u;
-    const ffwd_gov_slot *sa = slot_at_c(g, a), *sb = slot_at_c(g, a + 1u);
     const ffwd_real *b = g->box[a];
     ffwd_real kk = b[1], uu = maxr(absr(b[2]), absr(b[3]));
     uint32_t j;
@@ -1341,6 +1354,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
 {
     const uint32_t nseg = g->count - 1u;
     const ffwd_real send = (ffwd_real)nseg * g->cfg.ds;
+    ffwd_gov_slot *sl;
     ffwd_real dur;
     uint32_t i;
     int r, all = 1;
@@ -1359,7 +1373,8 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         return 0;
     /* each sample once, with the box joining the two segments it ends (rows are affine
      * between samples: both ends of a segment cover it) */
-    for (i = 0; i <= nseg; i++) {
+    sl = slot_at(g, 0);
+    for (i = 0; i <= nseg; i++, sl = ring_next(g, sl)) {
         const int l = i > 0u && g->box_used[i - 1u], rr = i < nseg && g->box_used[i];
         ffwd_real bb[4];
         if (!l && !rr)
@@ -1373,7 +1388,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         } else {
             memcpy(bb, g->box[l ? i - 1u : i], sizeof bb);
         }
-        if (!box_fits_kept(g, slot_at(g, i), bb))
+        if (!box_fits_kept(g, sl, bb))
             return 0;
     }
     if (!g->any_jerk)
@@ -1385,11 +1400,14 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     cycle_qdd(g, g->cyc_last, g->pq);
     if (!jerk_step_ok(g, g->pq2, g->pq))
         return 0;
+    sl = slot_at(g, 0);
     for (i = 0; i < nseg; i++) {
-        if (g->box_used[i] && seg_jerk_safe(g, i, Vp))
+        ffwd_gov_slot *sn = ring_next(g, sl);
+        if (g->box_used[i] && seg_jerk_safe(g, i, sl, sn, Vp))
             g->box_used[i] = 2;
         else if (g->box_used[i])
             all = 0;
+        sl = sn;
     }
     if (all && r == 1)
         return 1;
