@@ -167,6 +167,9 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->try_last = 0u;
     g->mins_ok = 0u;
     g->clean = 0u;
+    ffwd_zero_(g->am2, FFWD_MAX_DOF);
+    for (j = 0; j < model->dof; j++)    /* for the box tests of plan D */
+        g->am2[j] = (FR(1) - FR(2) * cfg->margin) * model->joint[j].a_max;
     g->vp_min = BIG;
     g->dr_min = BIG;
     /* window segments a cycle can reach: ceil(reach / ds) + 1, at most horizon - 1 */
@@ -626,7 +629,7 @@ static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uin
 /* The coefficients of q' and q'' of every jerk-limited joint over window segment i as
  * polynomials in th (the step's quintic Hermite interpolation, expanded once per
  * segment: q(th) = p0 + v0 th + w0 th^2 / 2 + a3 th^3 + a4 th^4 + a5 th^5). */
-static void hermite_a345(const ffwd_real *P, ffwd_real *a)
+static inline void hermite_a345(const ffwd_real *P, ffwd_real *a)
 {
     const ffwd_real dp = P[5] - P[0];
     a[0] = FR(10) * dp - FR(6) * P[1] - FR(4) * P[4] - FR(1.5) * P[2] + FR(0.5) * P[3];
@@ -864,14 +867,13 @@ static ffwd_real plan_action(const ffwd_governor *g, ffwd_real kap, ffwd_real u,
  * the kappa ends and, where b < 0, its interior maximum. */
 static int box_fits(const ffwd_governor *g, const ffwd_gov_slot *sl, const ffwd_real *b)
 {
-    const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin;
     const ffwd_real kl = b[0], kh = b[1], ul = b[2], uh = b[3], xl = kl * kl, xh = kh * kh;
     uint32_t j;
     if (xh > sl->x_max || kh > sl->k_vel)
         return 0;
     for (j = 0; j < g->model->dof; j++) {
         const ffwd_real ddq = sl->ddq[j], dq = sl->dq[j], a = sl->a[j], bb = sl->b[j], gv = sl->gv[j];
-        const ffwd_real am = keep2 * g->model->joint[j].a_max, kv = sl->kv[j];
+        const ffwd_real am = g->am2[j], kv = sl->kv[j];
         const ffwd_real f0 = bb * xl + gv * kl, f1 = bb * xh + gv * kh, u0 = a * ul, u1 = a * uh;
         const ffwd_real e0 = ddq * xl, e1 = ddq * xh, v0 = dq * ul, v1 = dq * uh;
         ffwd_real fhi = maxr(f0, f1);

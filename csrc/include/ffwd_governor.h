@@ -133,6 +133,7 @@ typedef struct ffwd_governor {
     uint32_t try_first, try_last;  /* the samples the fastest stop tried last wrote */
     ffwd_real vp_min, dr_min;   /* the least vp and dr of the window's samples (mins_ok 1: */
     uint32_t mins_ok;           /* kept; 0: to be found again) */
+    ffwd_real am2[FFWD_MAX_DOF];    /* each joint's acceleration limit, twice the margin */
     uint32_t clean;             /* the first `clean` samples are as the last backward pass
                                    saw them (rows, x_safe): where it meets one of their
                                    x_safe again, the rest is unchanged */
