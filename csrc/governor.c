@@ -981,7 +981,7 @@ static void hold_boxes(ffwd_governor *g, ffwd_real s, ffwd_real k, ffwd_real D, 
 /* Path length plan D covers to rest in continuous time (u ramps at -V to -D or less,
  * holds, ramps back at +V), and its duration into *dur when dur is not NULL: quick
  * tests before its cycles are simulated. */
-static ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V, ffwd_real *dur)
+static inline ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V, ffwd_real *dur)
 {
     ffwd_real F, um, T[3], v[3], s = FR(0);
     uint32_t p;
