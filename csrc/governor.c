@@ -10,7 +10,10 @@
  * command and clips it into the limits (the torque exactly: tau0 + a u from the
  * inverse dynamics at the current point) and under the safe curve.
  * ffwd/twin/governor.py is the same algorithm in numpy-free Python, operation for
- * operation; tests/test_governor_equivalence.py keeps them equal.
+ * operation; tests/test_governor_equivalence.py keeps them equal. Only here, as
+ * shortcuts that give the same output: the kept boxes of the box tests, the ramp runs
+ * of plan D, the backward pass's stop at an unchanged sample, the order in which push
+ * tries the lower bounds for dominance, and one sin/cos for the dynamics at a point.
  */
 #include "spatial.h"
 
