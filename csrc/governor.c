@@ -94,16 +94,16 @@ static ffwd_gov_slot *slot_at(ffwd_governor *g, uint32_t k)
     return (ffwd_gov_slot *)slot_at_c(g, k);   /* g is not const: the slot may be written */
 }
 
-/* The slot after and before sl in the ring (a walk over the window without index
- * arithmetic). */
-static inline ffwd_gov_slot *ring_next(ffwd_governor *g, ffwd_gov_slot *sl)
+/* The slot after and before sl in the ring of slots [first, end) (a walk over the
+ * window without index arithmetic; the caller keeps first and end in registers). */
+static inline ffwd_gov_slot *ring_next(ffwd_gov_slot *first, const ffwd_gov_slot *end, ffwd_gov_slot *sl)
 {
-    return sl + 1 == g->slot + g->cfg.horizon ? g->slot : sl + 1;
+    return sl + 1 == end ? first : sl + 1;
 }
 
-static inline ffwd_gov_slot *ring_prev(ffwd_governor *g, ffwd_gov_slot *sl)
+static inline ffwd_gov_slot *ring_prev(ffwd_gov_slot *first, ffwd_gov_slot *end, ffwd_gov_slot *sl)
 {
-    return sl == g->slot ? g->slot + (g->cfg.horizon - 1u) : sl - 1;
+    return sl == first ? end - 1 : sl - 1;
 }
 
 static int cfg_finite(const ffwd_gov_config *c)
@@ -475,7 +475,7 @@ static void backward_pass(ffwd_governor *g)
 {
     uint32_t i, p;
     ffwd_real X1, L1, k1;
-    ffwd_gov_slot *sl, *next;
+    ffwd_gov_slot *sl, *next, *const first = g->slot, *const end = g->slot + g->cfg.horizon;
     if (g->count == 0u)
         return;
     sl = slot_at(g, g->count - 1u);
@@ -484,7 +484,7 @@ static void backward_pass(ffwd_governor *g)
     for (i = g->count - 1u; i > 0u; i--) {
         ffwd_real best;
         next = sl;
-        sl = ring_prev(g, sl);          /* sample i - 1 */
+        sl = ring_prev(first, end, sl);     /* sample i - 1 */
         best = sl->x_max;
         k1 = sqrt0(X1);
         L1 = -BIG;                      /* 2 ds times the next sample's lower bound at X1 */
@@ -1359,7 +1359,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
 {
     const uint32_t nseg = g->count - 1u;
     const ffwd_real send = (ffwd_real)nseg * g->cfg.ds;
-    ffwd_gov_slot *sl;
+    ffwd_gov_slot *sl, *const first = g->slot, *const end = g->slot + g->cfg.horizon;
     ffwd_real dur;
     uint32_t i;
     int r, all = 1;
@@ -1379,7 +1379,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     /* each sample once, with the box joining the two segments it ends (rows are affine
      * between samples: both ends of a segment cover it) */
     sl = slot_at(g, 0);
-    for (i = 0; i <= nseg; i++, sl = ring_next(g, sl)) {
+    for (i = 0; i <= nseg; i++, sl = ring_next(first, end, sl)) {
         const int l = i > 0u && g->box_used[i - 1u], rr = i < nseg && g->box_used[i];
         ffwd_real bb[4];
         if (!l && !rr)
@@ -1407,7 +1407,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
         return 0;
     sl = slot_at(g, 0);
     for (i = 0; i < nseg; i++) {
-        ffwd_gov_slot *sn = ring_next(g, sl);
+        ffwd_gov_slot *sn = ring_next(first, end, sl);
         if (g->box_used[i] && seg_jerk_safe(g, i, sl, sn, Vp))
             g->box_used[i] = 2;
         else if (g->box_used[i])
