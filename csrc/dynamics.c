@@ -203,9 +203,19 @@ typedef char ffwd_ids_fits[(15 * ID_ST <= FFWD_A_STRIDE * FFWD_MAX_DOF) ? 1 : -1
  * saved); elsewhere (microcontrollers) one copy of each, for code size. */
 #if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
 #define PASS_INLINE inline __attribute__((always_inline))
+#define PASS_COPIES 1
 #else
 #define PASS_INLINE
+#define PASS_COPIES 0
 #endif
+
+/* Where the passes are inlined, a serial chain of revolute joints (the common arm) takes
+ * a copy of each in which the joint type and parent are constants: the same operations,
+ * without the per-joint tests (crev below). */
+static inline int rev_chain_copy(const ffwd_work *w)
+{
+    return PASS_COPIES && w->scratch[FFWD_OFF_CHAIN] != FR(0) && w->scratch[FFWD_OFF_NPRIS] == FR(0);
+}
 
 /* Lanes of the body-force step of id_pass: two bodies at once where the target has
  * two-lane vectors of doubles (x86-64, Arm NEON), one elsewhere (no larger code for
@@ -462,16 +472,11 @@ static PASS_INLINE int id_pass_k(const ffwd_model *m, ffwd_work *w, const ffwd_r
     return acc == FR(0);
 }
 
-/* id_pass; a serial chain of revolute joints (the common arm) takes a copy of it in which
- * the joint type and parent are constants (where the passes are inlined) */
 static PASS_INLINE int id_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                                const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau, int drive)
 {
-#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
-    if (w->scratch[FFWD_OFF_CHAIN] != FR(0) && w->scratch[FFWD_OFF_NPRIS] == FR(0))
-        return id_pass_k(m, w, qd, qdd, g, tau, drive, 1);
-#endif
-    return id_pass_k(m, w, qd, qdd, g, tau, drive, 0);
+    return rev_chain_copy(w) ? id_pass_k(m, w, qd, qdd, g, tau, drive, 1)
+                             : id_pass_k(m, w, qd, qdd, g, tau, drive, 0);
 }
 
 ffwd_status ffwd_inverse_dynamics(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
@@ -623,15 +628,9 @@ static PASS_INLINE int gravity_pass_k(const ffwd_model *m, ffwd_work *w, const f
     return acc == FR(0);
 }
 
-/* gravity_pass; a serial chain of revolute joints takes a copy of it in which the joint
- * type is a constant (where the passes are inlined), as id_pass */
 static PASS_INLINE int gravity_pass(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
 {
-#if defined(__GNUC__) && (defined(__SSE2__) || defined(__ARM_NEON))
-    if (w->scratch[FFWD_OFF_CHAIN] != FR(0) && w->scratch[FFWD_OFF_NPRIS] == FR(0))
-        return gravity_pass_k(m, w, q, tau, 1);
-#endif
-    return gravity_pass_k(m, w, q, tau, 0);
+    return rev_chain_copy(w) ? gravity_pass_k(m, w, q, tau, 1) : gravity_pass_k(m, w, q, tau, 0);
 }
 
 ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_real *q, ffwd_real *tau)
@@ -654,8 +653,9 @@ ffwd_status ffwd_gravity_torque(const ffwd_model *m, ffwd_work *w, const ffwd_re
     return FFWD_E_NONFINITE;
 }
 
-/* out-of-line copies of the passes for ffwd_torque_parts (ffwd_inverse_dynamics and
- * ffwd_gravity_torque have their own, inlined) */
+/* out-of-line copies of the passes for ffwd_torque_parts (no drive terms) and
+ * ffwd_id_pair_gravity_ (ffwd_inverse_dynamics and ffwd_gravity_torque have their own,
+ * inlined) */
 static FFWD_NOINLINE int id_pass_call(const ffwd_model *m, ffwd_work *w, const ffwd_real *qd,
                                       const ffwd_real *qdd, const ffwd_real *g, ffwd_real *tau)
 {

@@ -445,6 +445,47 @@ static void test_sincos_joints(void)
     CHECK(bad == 0, "batched sin/cos differs from ffwd_sincos_ at %d points", bad);
 }
 
+ffwd_status ffwd_id_pair_gravity_(const ffwd_model *m, ffwd_work *w, const ffwd_real *q,
+                                  const ffwd_real *qd1, const ffwd_real *qdd1, ffwd_real *tau1,
+                                  const ffwd_real *qd2, const ffwd_real *qdd2, ffwd_real *tau2,
+                                  ffwd_real *grav);
+
+/* The governor's three evaluations at one q with one sin/cos (spatial.h) give, bit for
+ * bit, what the public calls give, on chains (with and without prismatic joints) and
+ * trees, payload or none; a refused q gets the public call's status. */
+static void test_pair_gravity(void)
+{
+    int t, bad = 0;
+    for (t = 0; t < 24; t++) {
+        ffwd_model m;
+        static ffwd_work w;
+        const uint32_t n = 2u + (uint32_t)t % 7u;
+        ffwd_real q[FFWD_MAX_DOF], qd[FFWD_MAX_DOF], qdd[FFWD_MAX_DOF], z[FFWD_MAX_DOF], a[FFWD_MAX_DOF];
+        ffwd_real t1[FFWD_MAX_DOF], t2[FFWD_MAX_DOF], gr[FFWD_MAX_DOF];
+        ffwd_real r1[FFWD_MAX_DOF], r2[FFWD_MAX_DOF], rg[FFWD_MAX_DOF];
+        uint32_t i;
+        rand_model(&m, n, t % 3 == 2, t % 2);
+        if (t % 4 == 1) { m.tool_parent = (int32_t)(n / 2); rand_body(m.payload); }
+        CHECK(ffwd_work_init(&w, &m) == FFWD_OK, "random model rejected");
+        for (i = 0; i < n; i++) {
+            q[i] = (ffwd_real)srand1(3); qd[i] = (ffwd_real)srand1(2); qdd[i] = (ffwd_real)srand1(5);
+            a[i] = (ffwd_real)srand1(1); z[i] = 0;
+        }
+        CHECK(ffwd_id_pair_gravity_(&m, &w, q, qd, qdd, t1, z, a, t2, gr) == FFWD_OK, "pair status");
+        CHECK(ffwd_inverse_dynamics(&m, &w, q, qd, qdd, r1) == FFWD_OK
+              && ffwd_inverse_dynamics(&m, &w, q, z, a, r2) == FFWD_OK
+              && ffwd_gravity_torque(&m, &w, q, rg) == FFWD_OK, "public calls");
+        bad += memcmp(t1, r1, n * sizeof(ffwd_real)) != 0 || memcmp(t2, r2, n * sizeof(ffwd_real)) != 0
+               || memcmp(gr, rg, n * sizeof(ffwd_real)) != 0;
+        q[n - 1u] = (ffwd_real)NAN;
+        CHECK(ffwd_id_pair_gravity_(&m, &w, q, qd, qdd, t1, z, a, t2, gr)
+              == ffwd_inverse_dynamics(&m, &w, q, qd, qdd, r1), "pair status for a NaN q");
+        CHECK(ffwd_id_pair_gravity_(&m, &w, q, qd, qdd, t1, z, a, t2, gr) == FFWD_E_NONFINITE
+              && max_abs(t1, n) == 0, "NaN q: FFWD_E_NONFINITE, tau1 zero");
+    }
+    CHECK(bad == 0, "one sin/cos for three evaluations differs from the public calls in %d models", bad);
+}
+
 /* The regressor's Coulomb column is the clamp of qd / band to [-1, 1] at any ratio (the
  * friction law of ffwd.h; it must equal ID's Coulomb term, here with a band so narrow
  * that qd / band passes 2^53) */
@@ -478,6 +519,7 @@ int main(void)
     test_status();
     test_pendulum();
     test_coulomb_column();
+    test_pair_gravity();
     test_two_link();
     test_args();
     test_model_rules();
