@@ -24,6 +24,7 @@
 #define GOV_BISECT 4u   /* halvings between the stored plan's u and the step's */
 #define GOV_FIT_ITER 20u  /* stop_fit_u: the width of this many halvings, at most this many steps */
 #define GOV_EXACT_CYCLES 2048u  /* plan D cycles checked one by one at most (pass 2) */
+#define GOV_HOLD 1u   /* where the window holds the speed: cycles plan D repeats u before it brakes */
 
 #if defined(__GNUC__) || defined(__clang__)
 #ifdef FFWD_SINGLE
@@ -158,6 +159,7 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     g->sigma = FR(0);
     g->kappa = FR(0);
     g->u = FR(0);
+    g->u_last = FR(0);
     g->plan = FFWD_GOV_PLAN_REST;
     g->any_jerk = 0;
     g->pc_seg = FFWD_GOV_MAX_HORIZON;
@@ -166,6 +168,7 @@ ffwd_status ffwd_governor_init(ffwd_governor *g, const ffwd_model *model, ffwd_w
     ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
     g->plan_D = FR(0);
     g->plan_Vp = FR(0);
+    g->hold_left = 0u;
     g->try_first = 1u;
     g->try_last = 0u;
     g->mins_ok = 0u;
@@ -1011,15 +1014,37 @@ static inline ffwd_real stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_
     return s;
 }
 
-/* How far plan D from the state after a cycle at u overshoots the window's end by its
- * continuous stop length (<= 0: it fits; rest within the cycle fits, -ds). */
-static ffwd_real stop_gap(const ffwd_governor *g, ffwd_real uc, ffwd_real D, ffwd_real Vp)
+/* stop_length of plan D from (k, u) when it first repeats u for `hold` cycles of dt
+ * (rest within them: the length to rest at that u), its duration into *dur. */
+static inline ffwd_real held_stop_length(ffwd_real k, ffwd_real u, ffwd_real D, ffwd_real V,
+                                         ffwd_real dt, uint32_t hold, ffwd_real *dur)
+{
+    const ffwd_real T = (ffwd_real)hold * dt, kh = k + u * T;
+    ffwd_real L;
+    if (hold == 0u)
+        return stop_length(k, u, D, V, dur);
+    if (u < FR(0) && kh <= FR(0)) {
+        if (dur != NULL)
+            *dur = k / -u;
+        return k * k / (FR(-2) * u);
+    }
+    L = stop_length(kh, u, D, V, dur);
+    if (dur != NULL)
+        *dur += T;
+    return k * T + FR(0.5) * u * T * T + L;
+}
+
+/* How far plan D (repeating u `hold` cycles first) from the state after a cycle at u
+ * overshoots the window's end by its continuous stop length (<= 0: it fits; rest within
+ * the cycle fits, -ds). */
+static ffwd_real stop_gap(const ffwd_governor *g, ffwd_real uc, ffwd_real D, ffwd_real Vp,
+                          uint32_t hold)
 {
     const ffwd_real dt = g->cfg.dt, send = (ffwd_real)(g->count - 1u) * g->cfg.ds;
     const ffwd_real kc = g->kappa + uc * dt, sc = g->sigma + g->kappa * dt + FR(0.5) * dt * dt * uc;
     if (uc < FR(0) && kc <= FR(0))
         return -g->cfg.ds;
-    return sc + stop_length(kc, uc, D, Vp, NULL) - send;
+    return sc + held_stop_length(kc, uc, D, Vp, dt, hold, NULL) - send;
 }
 
 /* The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp) stops
@@ -1028,15 +1053,15 @@ static ffwd_real stop_gap(const ffwd_governor *g, ffwd_real uc, ffwd_real D, ffw
  * the Illinois variant of the false position (a halving where a step would leave the
  * bracket), to the width GOV_FIT_ITER halvings would leave, in at most that many steps. */
 static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, ffwd_real D,
-                            ffwd_real Vp)
+                            ffwd_real Vp, uint32_t hold)
 {
     ffwd_real fa, fb, w;
     uint32_t it;
     int side = 0;
-    fb = stop_gap(g, ub, D, Vp);
+    fb = stop_gap(g, ub, D, Vp, hold);
     if (fb <= FR(0))
         return ub;
-    fa = stop_gap(g, ua, D, Vp);
+    fa = stop_gap(g, ua, D, Vp, hold);
     if (fa > FR(0))
         return ua;                          /* none fits (the gap grows with u) */
     w = (ub - ua) / (ffwd_real)(1ul << GOV_FIT_ITER);
@@ -1044,7 +1069,7 @@ static ffwd_real stop_fit_u(const ffwd_governor *g, ffwd_real ua, ffwd_real ub, 
         ffwd_real m = ua - fa * ((ub - ua) / (fb - fa)), fm;
         if (!(m > ua && m < ub))
             m = FR(0.5) * (ua + ub);
-        fm = stop_gap(g, m, D, Vp);
+        fm = stop_gap(g, m, D, Vp, hold);
         if (fm <= FR(0)) {
             ua = m;
             fa = fm;
@@ -1255,7 +1280,7 @@ static FFWD_NOINLINE void ramp_run(ffwd_governor *g, const plan_k *P, ramp_state
  * wherever the segments' bound does not cover it (box_used 2: covered), at most
  * GOV_EXACT_CYCLES cycles (more: the plan is not vouched for). 0: the plan fails. */
 static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
-                        ffwd_real Vp, int pass)
+                        ffwd_real Vp, int pass, uint32_t hold)
 {
     const plan_k P = plan_consts(g, D, Vp);
     const ffwd_real ds = g->cfg.ds, dt = g->cfg.dt, dt2 = FR(0.5) * dt * dt;
@@ -1266,7 +1291,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
     int wide = 0, first = 1;
     while (k > FR(0)) {
         ffwd_real un;
-        if (uu == -D && !first) {            /* holding: the middle of the hold as one block */
+        if (uu == -D && !first && hold == 0u) {   /* holding -D: the middle as one block */
             ffwd_real last[3];
             long mk = hold_block(g, s, k, D, Vp, last);
             int skip = mk > 0;
@@ -1293,7 +1318,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
                 continue;
             }
         }
-        if (pass == 1 && !first && uu != -D) {
+        if (pass == 1 && !first && uu != -D && hold == 0u) {
             ramp_state R;
             R.s = s; R.k = k; R.u = uu; R.cycles = cycles; R.ip = ip; R.bi = bi; R.wide = wide;
             memcpy(R.box, box, sizeof box);
@@ -1309,7 +1334,12 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
         cycles++;
         if (cycles > (uint32_t)FFWD_GOV_PLAN_CYCLES || s > send)
             return 0;
-        un = plan_act(g, &P, k, uu);
+        if (hold > 0u) {             /* the cycles that repeat u first */
+            un = uu;
+            hold--;
+        } else {
+            un = plan_act(g, &P, k, uu);
+        }
         i = seg_of(g, s);
         if (first) {
             g->cyc_first[0] = s;
@@ -1355,7 +1385,7 @@ static int decel_cycles(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_rea
  * from g->qdd0 (the command before the plan) to rest, by the segments' bound where it
  * covers it, else exactly (q' and q'' of the path's interpolation). */
 static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real u, ffwd_real D,
-                      ffwd_real Vp)
+                      ffwd_real Vp, uint32_t hold)
 {
     const uint32_t nseg = g->count - 1u;
     const ffwd_real send = (ffwd_real)nseg * g->cfg.ds;
@@ -1363,7 +1393,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     ffwd_real dur;
     uint32_t i;
     int r, all = 1;
-    if (sig + stop_length(kap, u, D, Vp, &dur) > send)
+    if (sig + held_stop_length(kap, u, D, Vp, g->cfg.dt, hold, &dur) > send)
         return 0;                           /* it cannot rest inside the window */
     if (!(dur <= g->cfg.dt * (ffwd_real)FFWD_GOV_PLAN_CYCLES))
         return 0;                           /* nor within the cycles it may simulate */
@@ -1373,7 +1403,7 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     for (i = 0; i < nseg; i++)
         g->box_used[i] = 0;
     g->pc_seg = FFWD_GOV_MAX_HORIZON;
-    r = decel_cycles(g, sig, kap, u, D, Vp, 1);
+    r = decel_cycles(g, sig, kap, u, D, Vp, 1, hold);
     if (r == 0)
         return 0;
     /* each sample once, with the box joining the two segments it ends (rows are affine
@@ -1416,14 +1446,15 @@ static int plan_decel(ffwd_governor *g, ffwd_real sig, ffwd_real kap, ffwd_real 
     }
     if (all && r == 1)
         return 1;
-    return decel_cycles(g, sig, kap, u, D, Vp, 2) != 0;
+    return decel_cycles(g, sig, kap, u, D, Vp, 2, hold) != 0;
 }
 
 /* The braking plan that vouches for applying uc this cycle (FFWD_GOV_PLAN_*, its D in
  * *D), or -1: the fastest stop if its changes of u fit the rate of rate, else a
  * constant deceleration D of the stored one, Dr, Dr/2, Dr/4 (every = 0: the first two
  * of these). */
-static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int every, ffwd_real *D)
+static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int every,
+                 uint32_t hold, ffwd_real *D)
 {
     const ffwd_real dt = g->cfg.dt, kap = g->kappa, h = g->cfg.rate_rate_max * dt;
     const ffwd_real kc = kap + uc * dt;
@@ -1450,7 +1481,7 @@ static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int
         uint32_t e, same = 0;
         for (e = 0; e < c; e++)
             same |= Ds[e] == Ds[c];                /* tried already (the stored D is often Dr) */
-        if (!same && Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp)) {
+        if (!same && Ds[c] > FR(0) && plan_decel(g, sc, kc, uc, Ds[c], Vp, hold)) {
             *D = Ds[c];
             return (int)FFWD_GOV_PLAN_DECEL;
         }
@@ -1458,16 +1489,19 @@ static int vouch(ffwd_governor *g, ffwd_real uc, ffwd_real Vp, ffwd_real Dr, int
     return -1;
 }
 
-/* Store an accepted plan (the fastest stop: its x per sample); returns kind >= 0. */
-static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp)
+/* Store an accepted plan (the fastest stop: its x per sample; plan D: the cycles it
+ * repeats u first); returns kind >= 0. */
+static int keep_plan(ffwd_governor *g, int kind, ffwd_real D, ffwd_real Vp, uint32_t hold)
 {
     uint32_t k;
     if (kind < 0)
         return 0;
     g->plan = (uint32_t)kind;
+    g->hold_left = 0u;
     if (kind == (int)FFWD_GOV_PLAN_DECEL) {
         g->plan_D = D;
         g->plan_Vp = Vp;
+        g->hold_left = hold;
     }
     if (kind == (int)FFWD_GOV_PLAN_FAST)
         for (k = 0; k < g->count; k++) {
@@ -1487,7 +1521,7 @@ static ffwd_real plan_step(ffwd_governor *g, ffwd_real x)
     if (g->plan == FFWD_GOV_PLAN_REST || g->kappa <= FR(0))
         return g->kappa <= FR(0) ? FR(0) : -g->kappa / dt;
     if (g->plan == FFWD_GOV_PLAN_DECEL)
-        return plan_action(g, g->kappa, g->u, g->plan_D, g->plan_Vp);
+        return g->hold_left > 0u ? g->u : plan_action(g, g->kappa, g->u, g->plan_D, g->plan_Vp);
     /* plan P: its u on this segment (the state is on its line), the landing on the next
      * segment's line where the cycle crosses a sample */
     u0 = slot_at(g, 0)->u_plan;
@@ -1517,7 +1551,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
     ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss, hic, Vp, Dr, Dk = FR(0);
     uint32_t n, j, k, nb, flags = 0, jerk_bad = 0;
-    int kind, got;
+    int kind, got, held;
     ffwd_status st;
     if (out == NULL)
         return FFWD_E_ARG;
@@ -1566,6 +1600,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         out->flags = FFWD_GOV_AT_REST | (g->finished ? FFWD_GOV_DONE : FFWD_GOV_STARVED);
         g->kappa = FR(0);
         g->u = FR(0);
+        g->u_last = FR(0);
         g->sigma = FR(0);
         ffwd_zero_(g->qdd_prev, FFWD_MAX_DOF);
         return FFWD_OK;
@@ -1693,6 +1728,10 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     ud = e >= FR(0) ? ud : -ud;
     vlo = -V;
     vhi = V;
+    if (g->u_last != g->u) {    /* it came to rest within the last cycle at u_last: within h of that too */
+        vlo = maxr(vlo, (g->u_last - V * dt - g->u) / dt);
+        vhi = minr(vhi, (g->u_last + V * dt - g->u) / dt);
+    }
     for (j = 0; j < n; j++) {
         const ffwd_joint *J = &m->joint[j];
         if (J->has_limits & FFWD_LIM_JERK) {
@@ -1725,13 +1764,20 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     }
     /* (b) with (c): the step is kept only if a braking plan from where it leads meets
      * every limit with the rate of rate bounded; else the largest u towards it that has
-     * one (halvings), else the stored plan's own u */
+     * one (halvings), else the stored plan's own u. Where the stored plan D repeats u
+     * this cycle (vouched for last cycle, where the window held the speed), that u unless
+     * the step asks for less. */
     got = 0;
-    if (step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad) && !(flags & FFWD_GOV_CONFLICT)) {
-        kind = vouch(g, unew, Vp, Dr, 1, &Dk);
-        got = keep_plan(g, kind, Dk, Vp);
+    held = g->plan == FFWD_GOV_PLAN_DECEL && g->hold_left > 0u;
+    if (!(held && unew >= g->u) && step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad)
+        && !(flags & FFWD_GOV_CONFLICT)) {
+        kind = vouch(g, unew, Vp, Dr, 1, 0u, &Dk);
+        got = keep_plan(g, kind, Dk, Vp, 0u);
     }
     if (!got) {
+        /* the stored plan's u (held: u again), or else the largest u towards the step's
+         * with a plan D that repeats it GOV_HOLD cycles before it brakes: where the window
+         * holds the speed, one full check every GOV_HOLD + 1 cycles */
         ffwd_real ua, ub, ufb = plan_step(g, x), Dm = Dr, uw;
         ua = ufb;
         ub = unew;
@@ -1739,25 +1785,25 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
          * length, for the largest D tried): usually what the window allows */
         if (g->plan == FFWD_GOV_PLAN_DECEL)
             Dm = maxr(Dm, g->plan_D);
-        if (ufb < unew && Dm > FR(0)) {
-            uw = stop_fit_u(g, ufb, unew, Dm, Vp);
+        if (!held && ufb < unew && Dm > FR(0)) {
+            uw = stop_fit_u(g, ufb, unew, Dm, Vp, GOV_HOLD);
             if (uw > ufb && uw < unew) {
                 ub = uw;
                 if (step_fits(g, uw, lo, hi, vlo, vhi, jerk_bad)) {
-                    kind = vouch(g, uw, Vp, Dr, 0, &Dk);
-                    got = keep_plan(g, kind, Dk, Vp);
+                    kind = vouch(g, uw, Vp, Dr, 0, GOV_HOLD, &Dk);
+                    got = keep_plan(g, kind, Dk, Vp, GOV_HOLD);
                     if (got)
                         ua = uw;
                 }
             }
         }
-        nb = got ? 0u : GOV_BISECT;         /* no halvings after the first try holds */
+        nb = got || held ? 0u : GOV_BISECT;   /* no halvings after the first try holds */
         for (k = 0; k < nb; k++) {
             ffwd_real mid = FR(0.5) * (ua + ub);
             int r = 0;
             if (step_fits(g, mid, lo, hi, vlo, vhi, jerk_bad)) {
-                kind = vouch(g, mid, Vp, Dr, 0, &Dk);
-                r = keep_plan(g, kind, Dk, Vp);
+                kind = vouch(g, mid, Vp, Dr, 0, GOV_HOLD, &Dk);
+                r = keep_plan(g, kind, Dk, Vp, GOV_HOLD);
             }
             if (!r) {
                 ub = mid;
@@ -1767,6 +1813,8 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
             }
         }
         if (!got) {
+            if (held)
+                g->hold_left--;
             if (!(lo - FR(1e-9) * (FR(1) + absr(lo)) <= ufb && ufb <= hi + FR(1e-9) * (FR(1) + absr(hi))))
                 flags |= FFWD_GOV_CONFLICT;
         } else {
@@ -1826,6 +1874,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
     g->sigma = sig;
     g->kappa = kn;
     g->u = unew;
+    g->u_last = out->rate;
     for (j = 0; j < n; j++)
         g->qdd_prev[j] = out->qdd[j];
     return FFWD_OK;

@@ -123,6 +123,7 @@ typedef struct ffwd_governor {
     uint32_t pieces;        /* window segments one cycle can reach */
     ffwd_real sigma;        /* progress past the first sample, [0, ds) */
     ffwd_real kappa, u;     /* applied override and its rate */
+    ffwd_real u_last;       /* the rate the last cycle applied (u differs: it came to rest) */
     ffwd_real qdd_prev[FFWD_MAX_DOF];   /* the last command's qdd (joint jerk per cycle) */
     uint32_t fault_index;   /* after FFWD_E_INFEASIBLE from push: sample index, */
     int32_t fault_joint;    /* joint (-1: none) and */
@@ -130,6 +131,7 @@ typedef struct ffwd_governor {
     uint32_t plan;          /* the stored braking plan: FFWD_GOV_PLAN_* (internal) */
     uint32_t any_jerk;      /* a joint has a jerk limit */
     ffwd_real plan_D, plan_Vp;  /* plan D: deceleration and ramp rate */
+    uint32_t hold_left;         /* plan D holds u this many cycles before it brakes */
     uint32_t try_first, try_last;  /* the samples the fastest stop tried last wrote */
     ffwd_real vp_min, dr_min;   /* the least vp and dr of the window's samples (mins_ok 1: */
     uint32_t mins_ok;           /* kept; 0: to be found again) */

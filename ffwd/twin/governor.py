@@ -30,6 +30,7 @@ ALPHA_TOL = 1e-12
 NBISECT = 4            # halvings between the plan's u and the step's
 FIT_ITER = 20          # stop_fit_u: the width of this many halvings, at most this many steps
 EXACT_CYCLES = 2048    # plan D cycles checked one by one at most (pass 2)
+HOLD = 1               # where the window holds the speed: cycles plan D repeats u before it brakes
 MAX_PLAN_CYCLES = 100000   # cycles of plan D simulated at most (longer: not vouched for)
 REST_TOL = 1e-12
 
@@ -176,9 +177,11 @@ class GovernorTwin:
         self.sigma = 0.0
         self.kappa = 0.0
         self.u = 0.0
+        self.u_last = 0.0         # the rate the last cycle applied (u differs: it came to rest)
         self.qdd_prev = [0.0] * self.n      # the last command's qdd (for the jerk per cycle)
         self.plan = None          # the stored braking plan: None or ("rest",), ("P",) (x_plan of
-                                  # the slots) or ("D", D, Vp)
+                                  # the slots) or ("D", D, Vp, hold)
+        self.hold_left = 0        # plan D repeats u this many cycles before it brakes
         reach = self.override_max * self.dt + 0.5 * self.U * self.dt * self.dt
         self.pieces = 1
         for p in range(1, self.H - 1):
@@ -555,27 +558,40 @@ class GovernorTwin:
             c2[j] = (w0 * i2, 6.0 * a3 * i2, 12.0 * a4 * i2, 20.0 * a5 * i2)
         return c1, c2
 
-    def stop_gap(self, uc, D, Vp):
-        """How far plan D from the state after a cycle at u overshoots the window's end by
-        its continuous stop length (<= 0: it fits; rest within the cycle fits, -ds)."""
+    def held_stop_length(self, k, u, D, V, hold):
+        """stop_length of plan D from (k, u) when it first repeats u for `hold` cycles
+        (rest within them: the length to rest at that u) and its duration."""
+        if hold == 0:
+            return self.stop_length(k, u, D, V)
+        T = hold * self.dt
+        kh = k + u * T
+        if u < 0.0 and kh <= 0.0:
+            return k * k / (-2.0 * u), k / -u
+        length, duration = self.stop_length(kh, u, D, V)
+        return k * T + 0.5 * u * T * T + length, duration + T
+
+    def stop_gap(self, uc, D, Vp, hold):
+        """How far plan D (repeating u `hold` cycles first) from the state after a cycle
+        at u overshoots the window's end by its continuous stop length (<= 0: it fits; rest
+        within the cycle fits, -ds)."""
         dt, send = self.dt, (len(self.window) - 1) * self.ds
         kc = self.kappa + uc * dt
         sc = self.sigma + self.kappa * dt + 0.5 * dt * dt * uc
         if uc < 0.0 and kc <= 0.0:
             return -self.ds
-        return sc + self.stop_length(kc, uc, D, Vp)[0] - send
+        return sc + self.held_stop_length(kc, uc, D, Vp, hold)[0] - send
 
-    def stop_fit_u(self, ua, ub, D, Vp):
+    def stop_fit_u(self, ua, ub, D, Vp, hold):
         """The largest u in [ua, ub] after which plan D (deceleration D, ramps at Vp)
         stops inside the window by its continuous stop length (ua if none does): what a
         full check of plan D can accept at most. The gap grows with u: its root is
         bracketed and found by the Illinois variant of the false position (a halving
         where a step would leave the bracket), to the width FIT_ITER halvings would
         leave, in at most FIT_ITER steps."""
-        fb = self.stop_gap(ub, D, Vp)
+        fb = self.stop_gap(ub, D, Vp, hold)
         if fb <= 0.0:
             return ub
-        fa = self.stop_gap(ua, D, Vp)
+        fa = self.stop_gap(ua, D, Vp, hold)
         if fa > 0.0:
             return ua                      # none fits
         w = (ub - ua) / float(1 << FIT_ITER)
@@ -584,7 +600,7 @@ class GovernorTwin:
             m = ua - fa * ((ub - ua) / (fb - fa))
             if not ua < m < ub:
                 m = 0.5 * (ua + ub)
-            fm = self.stop_gap(m, D, Vp)
+            fm = self.stop_gap(m, D, Vp, hold)
             if fm <= 0.0:
                 ua, fa = m, fm
                 if side < 0:
@@ -676,20 +692,20 @@ class GovernorTwin:
                 return False
         return True
 
-    def decel_cycles(self, sig, kap, u, D, Vp, box, safe=None):
+    def decel_cycles(self, sig, kap, u, D, Vp, box, safe=None, hold=0):
         """Plan D's cycles from (sig, kappa > 0, u), the middle of a hold as one block.
         The first pass (safe None) records the per-segment boxes; the second checks the
         joint jerk exactly wherever the segments' bound does not cover it (segments not
         in safe), at most EXACT_CYCLES cycles (more: the plan is not vouched for).
         Returns None if the plan fails, else (first cycle, last cycle, whether a cycle
-        steps over a whole segment)."""
+        steps over a whole segment). Its first `hold` cycles repeat u."""
         ds, dt = self.ds, self.dt
         send = (len(self.window) - 1) * ds
         s, k, uu = sig, kap, u
         cycles, exact, ip, wide = 0, 0, 0, False
         first = prev = None
         while k > 0.0:
-            if uu == -D and first is not None:   # holding: the middle of the hold as one block
+            if uu == -D and first is not None and hold == 0:   # holding -D: the middle as one block
                 m, last = self.hold_block(s, k, D, Vp)
                 skip = m > 0
                 i = self.seg_of(s)
@@ -710,7 +726,11 @@ class GovernorTwin:
             cycles += 1
             if cycles > MAX_PLAN_CYCLES or s > send:
                 return None
-            un = self.plan_action(k, uu, D, Vp)
+            if hold > 0:                 # the cycles that repeat u first
+                un = uu
+                hold -= 1
+            else:
+                un = self.plan_action(k, uu, D, Vp)
             i = self.seg_of(s)
             if first is None:
                 first = (s, k, un)
@@ -739,7 +759,7 @@ class GovernorTwin:
             return None
         return first, prev, wide
 
-    def plan_decel(self, sig, kap, u, D, Vp, qdd0):
+    def plan_decel(self, sig, kap, u, D, Vp, qdd0, hold=0):
         """Does plan D from (sig, kappa, u) meet every limit and rest inside the window?
         Its cycles are simulated; per window segment the box of its cycle states is
         tested at both ends (rows interpolate linearly between samples); the joint jerk
@@ -747,7 +767,7 @@ class GovernorTwin:
         bound where it covers it, else exactly (q' and q'' of the path's interpolation)."""
         w = self.window
         nseg = len(w) - 1
-        length, duration = self.stop_length(kap, u, D, Vp)
+        length, duration = self.held_stop_length(kap, u, D, Vp, hold)
         if sig + length > nseg * self.ds:
             return False                       # it cannot rest inside the window
         if not duration <= self.dt * MAX_PLAN_CYCLES:
@@ -756,7 +776,7 @@ class GovernorTwin:
         if kap <= 0.0:                         # at rest already: the command's qdd is 0
             return not self.any_jerk or self.jerk_step_ok(qdd0, zero)
         box = {}
-        run = self.decel_cycles(sig, kap, u, D, Vp, box)
+        run = self.decel_cycles(sig, kap, u, D, Vp, box, hold=hold)
         if run is None:
             return False
         first, last, wide = run
@@ -779,7 +799,7 @@ class GovernorTwin:
         safe = {i for i in sorted(box) if self.seg_jerk_safe(i, box, Vp)}
         if len(safe) == len(box) and not wide:
             return True
-        return self.decel_cycles(sig, kap, u, D, Vp, box, safe) is not None
+        return self.decel_cycles(sig, kap, u, D, Vp, box, safe, hold) is not None
 
     def hold_block(self, s, k, D, Vp):
         """Plan D holding u = -D from (s, kappa): the cycles up to two before the ramp
@@ -852,10 +872,11 @@ class GovernorTwin:
                 return False
         return True
 
-    def vouch(self, uc, Vp, Dr, every=True):
+    def vouch(self, uc, Vp, Dr, every=True, hold=0):
         """The braking plan that vouches for applying uc this cycle, or None: the fastest
         stop (P) if its changes of u fit the rate of rate, else a constant deceleration:
-        the stored one, Dr, Dr/2, Dr/4 (every=False: the first two of these)."""
+        the stored one, Dr, Dr/2, Dr/4 (every=False: the first two of these); plan D
+        repeats u `hold` cycles before it brakes."""
         dt, kap = self.dt, self.kappa
         h = self.V * dt
         kc = kap + uc * dt
@@ -873,14 +894,16 @@ class GovernorTwin:
         for c, D in enumerate(Ds):
             if D in Ds[:c]:
                 continue                    # tried already (the stored D is often Dr)
-            if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0):
-                return ("D", D, Vp)
+            if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0, hold):
+                return ("D", D, Vp, hold)
         return None
 
     def keep_plan(self, plan):
-        """Store an accepted plan (P: its x per sample) and return it."""
+        """Store an accepted plan (P: its x per sample; D: the cycles it repeats u
+        first) and return it."""
         if plan is not None:
             self.plan = plan
+            self.hold_left = plan[3] if plan[0] == "D" else 0
             if plan[0] == "P":
                 for sl in self.window:
                     sl.x_plan, sl.u_plan = sl.x_try, sl.u_try
@@ -892,7 +915,7 @@ class GovernorTwin:
         if p is None or p[0] == "rest" or self.kappa <= 0.0:
             return 0.0 if self.kappa <= 0.0 else -self.kappa / self.dt
         if p[0] == "D":
-            return self.plan_action(self.kappa, self.u, p[1], p[2])
+            return self.u if self.hold_left > 0 else self.plan_action(self.kappa, self.u, p[1], p[2])
         # plan P: its u on this segment (the state is on its line), the landing on the
         # next segment's line where the cycle crosses a sample
         u0 = self.window[0].u_plan
@@ -921,7 +944,7 @@ class GovernorTwin:
                        tau=inverse_dynamics(self.robot, q, np.zeros(n), np.zeros(n)),
                        s=self.base * ds, override=0.0, rate=0.0, rate_rate=-self.u / dt,
                        safe_override=0.0, flags=AT_REST | (DONE if self.finished else STARVED))
-            self.kappa = self.u = self.sigma = 0.0
+            self.kappa = self.u = self.u_last = self.sigma = 0.0
             self.qdd_prev = [0.0] * n
             return out
         s1 = w[1]
@@ -1015,6 +1038,9 @@ class GovernorTwin:
         ud = min(U, 2.0 * abs(e) / (sqrt0(dt * dt + 2.0 * abs(e) / Vp) + dt))
         ud = ud if e >= 0.0 else -ud
         vlo, vhi = -V, V
+        if self.u_last != self.u:    # it came to rest within the last cycle at u_last: within h of that too
+            vlo = max(vlo, (self.u_last - V * dt - self.u) / dt)
+            vhi = min(vhi, (self.u_last + V * dt - self.u) / dt)
         jerk_bad = False
         for j in range(n):
             if self.j_max[j] is not None:
@@ -1041,36 +1067,46 @@ class GovernorTwin:
             unew = min(max(utr, lo), hic)
         # (b) with (c): the step is kept only if a braking plan from where it leads meets
         # every limit with the rate of rate bounded; else the largest u towards it that
-        # has one (halvings), else the stored plan's own u
+        # has one (halvings), else the stored plan's own u. Where the stored plan D repeats
+        # u this cycle (vouched for last cycle, where the window held the speed), that u
+        # unless the step asks for less.
         tol = 1e-9
         def fits(uc):
             vc = (uc - self.u) / dt
             return (lo - tol * (1.0 + abs(lo)) <= uc <= hi + tol * (1.0 + abs(hi))
                     and vlo - tol * (1.0 + abs(vlo)) <= vc <= vhi + tol * (1.0 + abs(vhi))
                     and not jerk_bad)
-        got = self.keep_plan(self.vouch(unew, Vp, Dr)) if fits(unew) and not (flags & CONFLICT) else None
+        held = self.plan is not None and self.plan[0] == "D" and self.hold_left > 0
+        got = None
+        if not (held and unew >= self.u) and fits(unew) and not (flags & CONFLICT):
+            got = self.keep_plan(self.vouch(unew, Vp, Dr))
         if got is None:
+            # the stored plan's u (held: u again), or else the largest u towards the step's
+            # with a plan D that repeats it HOLD cycles before it brakes: where the window
+            # holds the speed, one full check every HOLD + 1 cycles
             ufb = self.plan_step(x)
             a, b = ufb, unew
             # first the largest u whose plan D stop fits the window (its continuous stop
             # length, for the largest D tried): usually what the window allows
             Dm = max(Dr, self.plan[1]) if self.plan is not None and self.plan[0] == "D" else Dr
-            if ufb < unew and Dm > 0.0:
-                uw = self.stop_fit_u(ufb, unew, Dm, Vp)
+            if not held and ufb < unew and Dm > 0.0:
+                uw = self.stop_fit_u(ufb, unew, Dm, Vp, HOLD)
                 if ufb < uw < unew:
                     b = uw
                     if fits(uw):
-                        got = self.keep_plan(self.vouch(uw, Vp, Dr, False))
+                        got = self.keep_plan(self.vouch(uw, Vp, Dr, False, HOLD))
                         if got is not None:
                             a = uw
-            for _ in range(0 if got is not None else NBISECT):
+            for _ in range(0 if got is not None or held else NBISECT):
                 mid = 0.5 * (a + b)
-                r = self.keep_plan(self.vouch(mid, Vp, Dr, False)) if fits(mid) else None
+                r = self.keep_plan(self.vouch(mid, Vp, Dr, False, HOLD)) if fits(mid) else None
                 if r is None:
                     b = mid
                 else:
                     a, got = mid, r
             if got is None:
+                if held:
+                    self.hold_left -= 1
                 if not (lo - tol * (1.0 + abs(lo)) <= ufb <= hi + tol * (1.0 + abs(hi))):
                     flags |= CONFLICT
             else:
@@ -1110,5 +1146,6 @@ class GovernorTwin:
                 w.pop(0)
                 self.base += 1
         self.sigma, self.kappa, self.u = sig, kn, unew
+        self.u_last = out["rate"]
         self.qdd_prev = [float(v) for v in qdd]
         return out
