@@ -8,7 +8,10 @@
  * largest admissible x; a backward pass over the window (x = 0 at its last sample)
  * gives the safe curve Xs; each step picks u by a jerk-bounded tracker of the
  * command and clips it into the limits (the torque exactly: tau0 + a u from the
- * inverse dynamics at the current point) and under the safe curve.
+ * inverse dynamics at the current point) and under the safe curve; a u is applied only
+ * if a braking plan from where it leads is verified. Where the window holds the speed,
+ * the plan that the fit accepts repeats u one cycle before it brakes, so the next cycle
+ * may apply that u again without a check of its own (held cycles).
  * ffwd/twin/governor.py is the same algorithm in numpy-free Python, operation for
  * operation; tests/test_governor_equivalence.py keeps them equal. Only here, as
  * shortcuts that give the same output: the kept boxes of the box tests, the ramp runs
