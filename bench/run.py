@@ -308,8 +308,9 @@ def other_scripts(out, quick):
     args = ["--repeat", "1", "--no-instructions"] if quick else []
     scaling = _script_json(os.path.join(HERE, "bench_scaling.py"), args, 60 if quick else 600)
     out["scaling"] = scaling
-    for key in ("governor_step_us_median_6dof_h64", "governor_cycle_instructions_6dof_h64",
-                "offline_scaling_ms_1000"):
+    for key in ("governor_step_us_median_6dof_h64", "governor_step_us_mean_6dof_h64",
+                "governor_step_us_p90_6dof_h64", "governor_step_us_p99_6dof_h64",
+                "governor_cycle_instructions_6dof_h64", "offline_scaling_ms_1000"):
         if key in scaling:
             out[key] = scaling[key]
     loop_args = ["--seconds", "1"] if quick else []
@@ -387,7 +388,9 @@ def markdown(out):
           f"- batch (N = 100,000): {_fmt(out.get('batch_samples_per_s'))} samples/s "
           f"({_fmt(out.get('binding', {}).get('pybind11', {}).get('batch_samples_per_cpu_s'))} "
           "per CPU second of the calling thread)",
-          f"- governor step (6 joints, horizon 64): {_fmt(out.get('governor_step_us_median_6dof_h64'))} us, "
+          f"- governor step (6 joints, horizon 64): median {_fmt(out.get('governor_step_us_median_6dof_h64'))} us "
+          f"(mean {_fmt(out.get('governor_step_us_mean_6dof_h64'))}, p90 {_fmt(out.get('governor_step_us_p90_6dof_h64'))}, "
+          f"p99 {_fmt(out.get('governor_step_us_p99_6dof_h64'))} us), "
           f"{_fmt(out.get('governor_cycle_instructions_6dof_h64'))} instructions a cycle (push and step, callgrind); "
           f"offline scaling of 1000 samples: {_fmt(out.get('offline_scaling_ms_1000'))} ms", ""]
     return "\n".join(L) + "\n"

@@ -65,14 +65,28 @@ def test_held_u_is_not_kept_when_the_command_drops(c_backend):
 
 
 def test_rate_of_rate_across_a_stop_within_a_cycle(c_backend):
-    # found by the governor audit (seed 21261259): a plan D that comes to rest within a
-    # cycle at u < 0 and a command that starts again at once; the next cycle's u must be
-    # within one cycle's rate of rate of the u the stopping cycle applied, not of 0
-    robot, rng = random_arm(0, 1)
-    path = Path.from_waypoints(np.array([0.0, 0.3, 0.6]), rng.uniform(-1, 1, (3, 1)))
-    robot = with_feasible_limits(robot, path, rng, jerk=True)
-    for cmd in (steps([0.0, 0.15, 0.19], [1.0, 0.0, 0.7]), steps([0.0, 0.1, 0.12], [0.5, 0.0, 1.0])):
-        gov = Governor(robot, path, horizon=64, dt=0.004, ds=0.008, rate_max=20.0,
-                       rate_rate_max=950.0, backend=c_backend)
-        run = gov.run(cmd)
-        check_run(robot, path, run, gov)
+    # found by a governor audit (tests/audit, seed 30000272): near the path's end a plan D
+    # comes to rest within a cycle at u < 0 and the command (30 %) starts it again at once;
+    # the next cycle's u must be within one cycle's rate of rate of the u the stopping
+    # cycle applied, not of 0 (check_run: 1.3 % over the bound before the fix)
+    rng = np.random.default_rng(30000272)
+    dof = int(rng.integers(1, 7))
+    robot, rng = random_arm(int(rng.integers(0, 2 ** 31 - 1)), dof)
+    n_way = int(rng.integers(2, 5))
+    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.8, n_way - 1)]))
+    path = Path.from_waypoints(times, rng.uniform(-1.2, 1.2, (n_way, dof)),
+                               kind=str(rng.choice(["cubic", "quintic"])))
+    robot = with_feasible_limits(robot, path, rng, jerk=bool(rng.random() < 0.5))
+    override_max = float(rng.choice([1.0, 1.5, 2.0]))
+    rng.integers(1, 6)
+    rng.choice([0.0, 0.05, 0.3, 0.7, 1.0, override_max], 1)
+    dt = float(rng.choice([0.001, 0.002, 0.004]))
+    gov = Governor(robot, path, horizon=int(rng.choice([4, 16, 64, 128])), dt=dt,
+                   ds=dt * float(rng.choice([1.0, 2.0])), override_max=override_max,
+                   rate_max=float(rng.uniform(2, 50)), rate_rate_max=float(rng.uniform(50, 5000)),
+                   backend=c_backend)
+    assert (dof, gov.horizon, gov.dt) == (4, 16, 0.002)   # the scenario the audit drew
+    run = gov.run(0.3)
+    check_run(robot, path, run, gov)
+    stops = np.flatnonzero((run.override[:-1] > 0) & (run.override[1:] == 0) & (run.rate[:-1] < 0))
+    assert len(stops) > 0          # it does come to rest within a cycle
