@@ -46,6 +46,7 @@ TARGETS = {  # goals from the issue; reported beside the figure, never asserted
     "gravity_over_id_ratio_6dof": ("<=", 0.4), "growth_6_to_24": ("<=", 4.4),
     "binding_overhead_us_pybind11": ("<=", 1.5), "binding_overhead_us_cffi": ("<=", 1.5),
     "batch_samples_per_s": (">=", 2e6),
+    "governor_step_us_median_6dof_h64": ("<=", 5.0), "offline_scaling_ms_1000": ("<=", 50.0),
 }
 
 
