@@ -155,6 +155,31 @@ def with_feasible_limits(robot, path, rng, jerk=False):
     return Robot(robot.name, robot.gravity, tuple(js))
 
 
+def audit_scenario(seed, backend="c"):
+    """The random scenario of the governor audit (tests/audit) for one seed: robot, path,
+    governor, override command (steps at random times) and the generator, which the
+    audit draws on further."""
+    rng = np.random.default_rng(seed)
+    dof = int(rng.integers(1, 7))
+    robot, rng = random_arm(int(rng.integers(0, 2 ** 31 - 1)), dof)
+    n_way = int(rng.integers(2, 5))
+    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.8, n_way - 1)]))
+    path = Path.from_waypoints(times, rng.uniform(-1.2, 1.2, (n_way, dof)),
+                               kind=str(rng.choice(["cubic", "quintic"])))
+    robot = with_feasible_limits(robot, path, rng, jerk=bool(rng.random() < 0.5))
+    override_max = float(rng.choice([1.0, 1.5, 2.0]))
+    n_steps = int(rng.integers(1, 6))
+    t_steps = np.concatenate([[0.0], np.sort(rng.uniform(0, 2 * path.duration, n_steps - 1))])
+    k_steps = rng.choice([0.0, 0.05, 0.3, 0.7, 1.0, override_max], n_steps)
+    k_steps[-1] = max(k_steps[-1], 0.3)
+    dt = float(rng.choice([0.001, 0.002, 0.004]))
+    gov = Governor(robot, path, horizon=int(rng.choice([4, 16, 64, 128])), dt=dt,
+                   ds=dt * float(rng.choice([1.0, 2.0])), override_max=override_max,
+                   rate_max=float(rng.uniform(2, 50)), rate_rate_max=float(rng.uniform(50, 5000)),
+                   backend=backend)
+    return robot, path, gov, steps(t_steps, k_steps), rng
+
+
 @st.composite
 def scenarios(draw):
     dof = draw(st.integers(1, 3))

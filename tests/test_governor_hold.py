@@ -7,7 +7,7 @@ import pytest
 from ffwd import Dynamics
 from ffwd.scaling import Governor, Path
 from ffwd.twin import governor as twin_gov
-from test_governor import arm, c_backend, check_run, random_arm, steps, with_feasible_limits  # noqa: F401
+from test_governor import audit_scenario, c_backend, check_run, random_arm, steps, with_feasible_limits  # noqa: F401
 
 
 def window_bound_scenario():
@@ -69,24 +69,9 @@ def test_rate_of_rate_across_a_stop_within_a_cycle(c_backend):
     # comes to rest within a cycle at u < 0 and the command (30 %) starts it again at once;
     # the next cycle's u must be within one cycle's rate of rate of the u the stopping
     # cycle applied, not of 0 (check_run: 1.3 % over the bound before the fix)
-    rng = np.random.default_rng(30000272)
-    dof = int(rng.integers(1, 7))
-    robot, rng = random_arm(int(rng.integers(0, 2 ** 31 - 1)), dof)
-    n_way = int(rng.integers(2, 5))
-    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.8, n_way - 1)]))
-    path = Path.from_waypoints(times, rng.uniform(-1.2, 1.2, (n_way, dof)),
-                               kind=str(rng.choice(["cubic", "quintic"])))
-    robot = with_feasible_limits(robot, path, rng, jerk=bool(rng.random() < 0.5))
-    override_max = float(rng.choice([1.0, 1.5, 2.0]))
-    rng.integers(1, 6)
-    rng.choice([0.0, 0.05, 0.3, 0.7, 1.0, override_max], 1)
-    dt = float(rng.choice([0.001, 0.002, 0.004]))
-    gov = Governor(robot, path, horizon=int(rng.choice([4, 16, 64, 128])), dt=dt,
-                   ds=dt * float(rng.choice([1.0, 2.0])), override_max=override_max,
-                   rate_max=float(rng.uniform(2, 50)), rate_rate_max=float(rng.uniform(50, 5000)),
-                   backend=c_backend)
-    assert (dof, gov.horizon, gov.dt) == (4, 16, 0.002)   # the scenario the audit drew
-    run = gov.run(0.3)
+    robot, path, gov, command, _ = audit_scenario(30000272, c_backend)
+    assert (robot.dof, gov.horizon, gov.dt) == (4, 16, 0.002)   # the scenario the audit drew
+    run = gov.run(command)
     check_run(robot, path, run, gov)
     stops = np.flatnonzero((run.override[:-1] > 0) & (run.override[1:] == 0) & (run.rate[:-1] < 0))
     assert len(stops) > 0          # it does come to rest within a cycle

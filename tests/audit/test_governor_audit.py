@@ -17,37 +17,20 @@ import numpy as np
 
 sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
 
-from ffwd.scaling import Governor, Path  # noqa: E402
 from ffwd.scaling.check import can_stop, violations  # noqa: E402
 from ffwd.scaling.governor import _c_available  # noqa: E402
-from test_governor import random_arm, require_build, steps, with_feasible_limits  # noqa: E402
+from test_governor import audit_scenario, require_build  # noqa: E402
 
 RUNS = int(os.environ.get("FFWD_AUDIT_RUNS", "20"))
 SEED = int(os.environ.get("FFWD_AUDIT_SEED", "20261202"))
 
 
 def one_run(seed):
-    rng = np.random.default_rng(seed)
-    dof = int(rng.integers(1, 7))
-    robot, rng = random_arm(int(rng.integers(0, 2 ** 31 - 1)), dof)
-    n_way = int(rng.integers(2, 5))
-    times = np.cumsum(np.concatenate([[0.0], rng.uniform(0.2, 0.8, n_way - 1)]))
-    path = Path.from_waypoints(times, rng.uniform(-1.2, 1.2, (n_way, dof)),
-                               kind=str(rng.choice(["cubic", "quintic"])))
-    robot = with_feasible_limits(robot, path, rng, jerk=bool(rng.random() < 0.5))
-    override_max = float(rng.choice([1.0, 1.5, 2.0]))
-    n_steps = int(rng.integers(1, 6))
-    t_steps = np.concatenate([[0.0], np.sort(rng.uniform(0, 2 * path.duration, n_steps - 1))])
-    k_steps = rng.choice([0.0, 0.05, 0.3, 0.7, 1.0, override_max], n_steps)
-    k_steps[-1] = max(k_steps[-1], 0.3)
-    dt = float(rng.choice([0.001, 0.002, 0.004]))
-    gov = Governor(robot, path, horizon=int(rng.choice([4, 16, 64, 128])), dt=dt,
-                   ds=dt * float(rng.choice([1.0, 2.0])), override_max=override_max,
-                   rate_max=float(rng.uniform(2, 50)), rate_rate_max=float(rng.uniform(50, 5000)),
-                   backend="c")
+    robot, path, gov, command, rng = audit_scenario(seed)
+    dt = gov.dt
     # a short window at a fine spacing makes the governor crawl (it must be able to stop
     # within a few milliseconds of path): give such runs time to reach the end
-    run = gov.run(steps(t_steps, k_steps), max_time=60.0 + 400.0 * path.duration)
+    run = gov.run(command, max_time=60.0 + 400.0 * path.duration)
     v = violations(robot, run.q, run.qd, run.qdd)
     # (b): the rate of rate and each joint's jerk (change of the commanded qdd per cycle)
     rr = np.abs(np.diff(np.concatenate([[0.0], run.rate]))) / dt / gov.rate_rate_max
