@@ -1771,7 +1771,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
      * this cycle (vouched for last cycle, where the window held the speed), that u unless
      * the step asks for less. */
     got = 0;
-    held = g->plan == FFWD_GOV_PLAN_DECEL && g->hold_left > 0u;
+    held = g->hold_left > 0u;   /* (only an accepted plan D sets it) */
     if (!(held && unew >= g->u) && step_fits(g, unew, lo, hi, vlo, vhi, jerk_bad)
         && !(flags & FFWD_GOV_CONFLICT)) {
         kind = vouch(g, unew, Vp, Dr, 1, 0u, &Dk);

@@ -180,7 +180,7 @@ class GovernorTwin:
         self.u_last = 0.0         # the rate the last cycle applied (u differs: it came to rest)
         self.qdd_prev = [0.0] * self.n      # the last command's qdd (for the jerk per cycle)
         self.plan = None          # the stored braking plan: None or ("rest",), ("P",) (x_plan of
-                                  # the slots) or ("D", D, Vp, hold)
+                                  # the slots) or ("D", D, Vp)
         self.hold_left = 0        # plan D repeats u this many cycles before it brakes
         reach = self.override_max * self.dt + 0.5 * self.U * self.dt * self.dt
         self.pieces = 1
@@ -895,15 +895,15 @@ class GovernorTwin:
             if D in Ds[:c]:
                 continue                    # tried already (the stored D is often Dr)
             if D > 0.0 and self.plan_decel(sc, kc, uc, D, Vp, qdd0, hold):
-                return ("D", D, Vp, hold)
+                return ("D", D, Vp)
         return None
 
-    def keep_plan(self, plan):
+    def keep_plan(self, plan, hold=0):
         """Store an accepted plan (P: its x per sample; D: the cycles it repeats u
         first) and return it."""
         if plan is not None:
             self.plan = plan
-            self.hold_left = plan[3] if plan[0] == "D" else 0
+            self.hold_left = hold if plan[0] == "D" else 0
             if plan[0] == "P":
                 for sl in self.window:
                     sl.x_plan, sl.u_plan = sl.x_try, sl.u_try
@@ -1076,7 +1076,7 @@ class GovernorTwin:
             return (lo - tol * (1.0 + abs(lo)) <= uc <= hi + tol * (1.0 + abs(hi))
                     and vlo - tol * (1.0 + abs(vlo)) <= vc <= vhi + tol * (1.0 + abs(vhi))
                     and not jerk_bad)
-        held = self.plan is not None and self.plan[0] == "D" and self.hold_left > 0
+        held = self.hold_left > 0   # (only an accepted plan D sets it)
         got = None
         if not (held and unew >= self.u) and fits(unew) and not (flags & CONFLICT):
             got = self.keep_plan(self.vouch(unew, Vp, Dr))
@@ -1094,12 +1094,12 @@ class GovernorTwin:
                 if ufb < uw < unew:
                     b = uw
                     if fits(uw):
-                        got = self.keep_plan(self.vouch(uw, Vp, Dr, False, HOLD))
+                        got = self.keep_plan(self.vouch(uw, Vp, Dr, False, HOLD), HOLD)
                         if got is not None:
                             a = uw
             for _ in range(0 if got is not None or held else NBISECT):
                 mid = 0.5 * (a + b)
-                r = self.keep_plan(self.vouch(mid, Vp, Dr, False, HOLD)) if fits(mid) else None
+                r = self.keep_plan(self.vouch(mid, Vp, Dr, False, HOLD), HOLD) if fits(mid) else None
                 if r is None:
                     b = mid
                 else:
