@@ -522,34 +522,40 @@ static void hermite_points(const ffwd_gov_slot *s0, const ffwd_gov_slot *s1, uin
     P[5] = s1->q[j];
 }
 
-/* Quintic Hermite basis (value, d/dth, d2, d3) at th for p0, v0, w0, w1, v1, p1. */
-static void hermite_basis(ffwd_real th, ffwd_real H[4][6])
+/* Quintic Hermite basis (value, d/dth, d2, d3) at th for v0, w0, w1, v1 and p1 - p0: the
+ * value is p0 plus the row's sum, a derivative the row's sum alone (p0's own basis function
+ * is 1 less p1's). So a path that stands (p1 = p0, the rest 0) has q = p0 and zero
+ * derivatives exactly, also where a compiler fuses a * b + c, and q is p0 plus a small
+ * correction instead of a difference of two large products. */
+static void hermite_basis(ffwd_real th, ffwd_real H[4][5])
 {
     ffwd_real t2 = th * th, t3 = t2 * th, t4 = t3 * th, t5 = t4 * th;
-    H[0][0] = FR(1) - FR(10) * t3 + FR(15) * t4 - FR(6) * t5;
-    H[0][1] = th - FR(6) * t3 + FR(8) * t4 - FR(3) * t5;
-    H[0][2] = FR(0.5) * t2 - FR(1.5) * t3 + FR(1.5) * t4 - FR(0.5) * t5;
-    H[0][3] = FR(0.5) * t3 - t4 + FR(0.5) * t5;
-    H[0][4] = FR(-4) * t3 + FR(7) * t4 - FR(3) * t5;
-    H[0][5] = FR(10) * t3 - FR(15) * t4 + FR(6) * t5;
-    H[1][0] = FR(-30) * t2 + FR(60) * t3 - FR(30) * t4;
-    H[1][1] = FR(1) - FR(18) * t2 + FR(32) * t3 - FR(15) * t4;
-    H[1][2] = th - FR(4.5) * t2 + FR(6) * t3 - FR(2.5) * t4;
-    H[1][3] = FR(1.5) * t2 - FR(4) * t3 + FR(2.5) * t4;
-    H[1][4] = FR(-12) * t2 + FR(28) * t3 - FR(15) * t4;
-    H[1][5] = FR(30) * t2 - FR(60) * t3 + FR(30) * t4;
-    H[2][0] = FR(-60) * th + FR(180) * t2 - FR(120) * t3;
-    H[2][1] = FR(-36) * th + FR(96) * t2 - FR(60) * t3;
-    H[2][2] = FR(1) - FR(9) * th + FR(18) * t2 - FR(10) * t3;
-    H[2][3] = FR(3) * th - FR(12) * t2 + FR(10) * t3;
-    H[2][4] = FR(-24) * th + FR(84) * t2 - FR(60) * t3;
-    H[2][5] = FR(60) * th - FR(180) * t2 + FR(120) * t3;
-    H[3][0] = FR(-60) + FR(360) * th - FR(360) * t2;
-    H[3][1] = FR(-36) + FR(192) * th - FR(180) * t2;
-    H[3][2] = FR(-9) + FR(36) * th - FR(30) * t2;
-    H[3][3] = FR(3) - FR(24) * th + FR(30) * t2;
-    H[3][4] = FR(-24) + FR(168) * th - FR(180) * t2;
-    H[3][5] = FR(60) - FR(360) * th + FR(360) * t2;
+    H[0][0] = th - FR(6) * t3 + FR(8) * t4 - FR(3) * t5;
+    H[0][1] = FR(0.5) * t2 - FR(1.5) * t3 + FR(1.5) * t4 - FR(0.5) * t5;
+    H[0][2] = FR(0.5) * t3 - t4 + FR(0.5) * t5;
+    H[0][3] = FR(-4) * t3 + FR(7) * t4 - FR(3) * t5;
+    H[0][4] = FR(10) * t3 - FR(15) * t4 + FR(6) * t5;
+    H[1][0] = FR(1) - FR(18) * t2 + FR(32) * t3 - FR(15) * t4;
+    H[1][1] = th - FR(4.5) * t2 + FR(6) * t3 - FR(2.5) * t4;
+    H[1][2] = FR(1.5) * t2 - FR(4) * t3 + FR(2.5) * t4;
+    H[1][3] = FR(-12) * t2 + FR(28) * t3 - FR(15) * t4;
+    H[1][4] = FR(30) * t2 - FR(60) * t3 + FR(30) * t4;
+    H[2][0] = FR(-36) * th + FR(96) * t2 - FR(60) * t3;
+    H[2][1] = FR(1) - FR(9) * th + FR(18) * t2 - FR(10) * t3;
+    H[2][2] = FR(3) * th - FR(12) * t2 + FR(10) * t3;
+    H[2][3] = FR(-24) * th + FR(84) * t2 - FR(60) * t3;
+    H[2][4] = FR(60) * th - FR(180) * t2 + FR(120) * t3;
+    H[3][0] = FR(-36) + FR(192) * th - FR(180) * t2;
+    H[3][1] = FR(-9) + FR(36) * th - FR(30) * t2;
+    H[3][2] = FR(3) - FR(24) * th + FR(30) * t2;
+    H[3][3] = FR(-24) + FR(168) * th - FR(180) * t2;
+    H[3][4] = FR(60) - FR(360) * th + FR(360) * t2;
+}
+
+/* The sum of basis row h times the Hermite data P (p0, v0, w0, w1, v1, p1): p1 - p0 for p1. */
+static ffwd_real hermite_row(const ffwd_real h[5], const ffwd_real P[6])
+{
+    return h[0] * P[1] + h[1] * P[2] + h[2] * P[3] + h[3] * P[4] + h[4] * (P[5] - P[0]);
 }
 
 /* Largest u whose constant-u motion over this cycle stays under the safe curve (plan:
@@ -620,7 +626,7 @@ static int jerk_ok(const ffwd_governor *g, const ffwd_gov_slot *sl, ffwd_real x,
 
 /* q', q'' and q''' of joint j in window segment i where the Hermite basis is H (the
  * step's quintic interpolation) into d[0..2]. */
-static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uint32_t j, ffwd_real *d)
+static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][5], uint32_t j, ffwd_real *d)
 {
     const ffwd_real ds = g->cfg.ds;
     const ffwd_gov_slot *s0 = slot_at_c(g, i), *s1 = slot_at_c(g, i + 1u);
@@ -628,8 +634,7 @@ static void path_d123(const ffwd_governor *g, uint32_t i, ffwd_real H[4][6], uin
     uint32_t r;
     hermite_points(s0, s1, j, ds, P);
     for (r = 0; r < 3u; r++)
-        v[r] = H[r + 1][0] * P[0] + H[r + 1][1] * P[1] + H[r + 1][2] * P[2] + H[r + 1][3] * P[3]
-               + H[r + 1][4] * P[4] + H[r + 1][5] * P[5];
+        v[r] = hermite_row(H[r + 1], P);
     d[0] = v[0] / ds;
     d[1] = v[1] / (ds * ds);
     d[2] = v[2] / (ds * ds * ds);
@@ -706,7 +711,7 @@ static int jump_ok(const ffwd_governor *g, uint32_t i, ffwd_real pos, ffwd_real 
                    ffwd_real u1)
 {
     const ffwd_real keep2 = FR(1) - FR(2) * g->cfg.margin, k = sqrt0(x), v = (u1 - u0) / g->cfg.dt;
-    ffwd_real H[4][6], d[3];
+    ffwd_real H[4][5], d[3];
     uint32_t j, c;
     if (!g->any_jerk)
         return 1;
@@ -1549,7 +1554,7 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
 {
     const ffwd_model *m;
     ffwd_gov_slot *s0, *s1;
-    ffwd_real H[4][6];
+    ffwd_real H[4][5];
     ffwd_real *d1, *d2, *tau0, *ta, *gq, *zq;
     ffwd_real dt, ds, U, V, keep, cmd, th, x, kap, lo, hi, cap, look, xa, kt, e, ud;
     ffwd_real vlo, vhi, v, utr, unew, vact, sig, kn, send, xss, hic, Vp, Dr, Dk = FR(0);
@@ -1617,9 +1622,8 @@ ffwd_status ffwd_governor_step(ffwd_governor *g, ffwd_real override_cmd, ffwd_go
         uint32_t r;
         hermite_points(s0, s1, j, ds, P);
         for (r = 0; r < 3u; r++)
-            val[r] = H[r][0] * P[0] + H[r][1] * P[1] + H[r][2] * P[2] + H[r][3] * P[3]
-                     + H[r][4] * P[4] + H[r][5] * P[5];
-        out->q[j] = val[0];
+            val[r] = hermite_row(H[r], P);
+        out->q[j] = P[0] + val[0];
         d1[j] = val[1] / ds;
         d2[j] = val[2] / (ds * ds);
     }

@@ -83,25 +83,31 @@ def hermite_points(s0, s1, j, ds):
 
 
 def hermite_basis(th):
-    """Quintic Hermite basis on [0, 1] for (p0, v0, w0, w1, v1, p1): rows value, d/dth, d2, d3."""
+    """Quintic Hermite basis on [0, 1] for (v0, w0, w1, v1, p1 - p0): rows value, d/dth, d2,
+    d3. The value is p0 plus its row's sum, a derivative its row's sum (p0's own basis
+    function is 1 less p1's), so a standing path is exact under any rounding."""
     t2 = th * th
     t3 = t2 * th
     t4 = t3 * th
     t5 = t4 * th
     return (
-        (1.0 - 10.0 * t3 + 15.0 * t4 - 6.0 * t5, th - 6.0 * t3 + 8.0 * t4 - 3.0 * t5,
-         0.5 * t2 - 1.5 * t3 + 1.5 * t4 - 0.5 * t5, 0.5 * t3 - t4 + 0.5 * t5,
-         -4.0 * t3 + 7.0 * t4 - 3.0 * t5, 10.0 * t3 - 15.0 * t4 + 6.0 * t5),
-        (-30.0 * t2 + 60.0 * t3 - 30.0 * t4, 1.0 - 18.0 * t2 + 32.0 * t3 - 15.0 * t4,
-         th - 4.5 * t2 + 6.0 * t3 - 2.5 * t4, 1.5 * t2 - 4.0 * t3 + 2.5 * t4,
-         -12.0 * t2 + 28.0 * t3 - 15.0 * t4, 30.0 * t2 - 60.0 * t3 + 30.0 * t4),
-        (-60.0 * th + 180.0 * t2 - 120.0 * t3, -36.0 * th + 96.0 * t2 - 60.0 * t3,
-         1.0 - 9.0 * th + 18.0 * t2 - 10.0 * t3, 3.0 * th - 12.0 * t2 + 10.0 * t3,
-         -24.0 * th + 84.0 * t2 - 60.0 * t3, 60.0 * th - 180.0 * t2 + 120.0 * t3),
-        (-60.0 + 360.0 * th - 360.0 * t2, -36.0 + 192.0 * th - 180.0 * t2,
-         -9.0 + 36.0 * th - 30.0 * t2, 3.0 - 24.0 * th + 30.0 * t2,
-         -24.0 + 168.0 * th - 180.0 * t2, 60.0 - 360.0 * th + 360.0 * t2),
+        (th - 6.0 * t3 + 8.0 * t4 - 3.0 * t5, 0.5 * t2 - 1.5 * t3 + 1.5 * t4 - 0.5 * t5,
+         0.5 * t3 - t4 + 0.5 * t5, -4.0 * t3 + 7.0 * t4 - 3.0 * t5, 10.0 * t3 - 15.0 * t4 + 6.0 * t5),
+        (1.0 - 18.0 * t2 + 32.0 * t3 - 15.0 * t4, th - 4.5 * t2 + 6.0 * t3 - 2.5 * t4,
+         1.5 * t2 - 4.0 * t3 + 2.5 * t4, -12.0 * t2 + 28.0 * t3 - 15.0 * t4,
+         30.0 * t2 - 60.0 * t3 + 30.0 * t4),
+        (-36.0 * th + 96.0 * t2 - 60.0 * t3, 1.0 - 9.0 * th + 18.0 * t2 - 10.0 * t3,
+         3.0 * th - 12.0 * t2 + 10.0 * t3, -24.0 * th + 84.0 * t2 - 60.0 * t3,
+         60.0 * th - 180.0 * t2 + 120.0 * t3),
+        (-36.0 + 192.0 * th - 180.0 * t2, -9.0 + 36.0 * th - 30.0 * t2,
+         3.0 - 24.0 * th + 30.0 * t2, -24.0 + 168.0 * th - 180.0 * t2,
+         60.0 - 360.0 * th + 360.0 * t2),
     )
+
+
+def hermite_row(h, P):
+    """Basis row h times the Hermite data P = (p0, v0, w0, w1, v1, p1), with p1 - p0 for p1."""
+    return h[0] * P[1] + h[1] * P[2] + h[2] * P[3] + h[3] * P[4] + h[4] * (P[5] - P[0])
 
 
 def hermite_a345(p0, v0, w0, w1, v1, p1):
@@ -537,8 +543,7 @@ class GovernorTwin:
         (the step's quintic interpolation)."""
         ds = self.ds
         P = hermite_points(self.window[i], self.window[i + 1], j, ds)
-        v = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3] + Hr[4] * P[4] + Hr[5] * P[5]
-             for Hr in H[1:]]
+        v = [hermite_row(Hr, P) for Hr in H[1:]]
         return v[0] / ds, v[1] / (ds * ds), v[2] / (ds * ds * ds)
 
     def seg_poly(self, i):
@@ -953,9 +958,8 @@ class GovernorTwin:
         q, d1, d2 = ([0.0] * n for _ in range(3))
         for j in range(n):                       # the path between the two samples
             P = hermite_points(s0, s1, j, ds)
-            val = [Hr[0] * P[0] + Hr[1] * P[1] + Hr[2] * P[2] + Hr[3] * P[3]
-                   + Hr[4] * P[4] + Hr[5] * P[5] for Hr in H[:3]]
-            q[j] = val[0]
+            val = [hermite_row(Hr, P) for Hr in H[:3]]
+            q[j] = P[0] + val[0]
             d1[j] = val[1] / ds
             d2[j] = val[2] / (ds * ds)
         kap = self.kappa
