@@ -47,6 +47,8 @@ TARGETS = {  # goals from the issue; reported beside the figure, never asserted
     "binding_overhead_us_pybind11": ("<=", 1.5), "binding_overhead_us_cffi": ("<=", 1.5),
     "batch_samples_per_s": (">=", 2e6),
     "governor_step_us_median_6dof_h64": ("<=", 5.0), "offline_scaling_ms_1000": ("<=", 50.0),
+    # the same two instruction targets for the build for the CPU level x86-64-v3
+    "id_instructions_6dof_x86_64_v3": ("<=", 2000), "gravity_over_id_ratio_6dof_x86_64_v3": ("<=", 0.4),
 }
 
 
@@ -169,6 +171,51 @@ def c_figures(out, robot, build, quick):
             exe, ["--calls-only", "--functions", "inverse_dynamics", "--iterations", "200"],
             SYMBOL["inverse_dynamics"])
     return exe
+
+
+def cpu_level_figures(out, robot, build, quick, base_exe, level="x86-64-v3"):
+    """The model's ffwd-bench built for CPU level `level` (cbuild.CPU_LEVELS), beside the
+    portable build base_exe: instructions per call (callgrind) and times, the two programs
+    run in alternation (rounds), so that a change of the machine's speed hits both alike."""
+    why = cbuild.cpu_level_runs(level)
+    if why:
+        out["cpu_level"] = {"level": level, "skipped": why}
+        log(f"CPU level {level} skipped: {why}")
+        return
+    sym_src, _ = newton_euler.emit_c(robot)
+    exe = cbuild.model_bench(build, robot, "bench_model", symbolic_source=sym_src, level=level)
+    check = subprocess.run([exe, "--check"], capture_output=True, text=True)
+    fig = {"level": level, "flags": " ".join(cbuild.CPU_LEVELS[level]),
+           "symbolic_check": json.loads(check.stdout) if check.stdout.strip() else check.stderr}
+    names = ["inverse_dynamics", "gravity", "symbolic"]
+    iters = 5000 if quick else 50000
+    rounds = {"base": {n: [] for n in names}, "level": {n: [] for n in names}}
+    for _ in range(3 if quick else 9):
+        for key, prog in (("base", base_exe), ("level", exe)):
+            data = _bench_json(prog, ["--functions", ",".join(names), "--iterations", str(iters),
+                                      "--warmup", str(iters // 10)])
+            for r in data["results"]:
+                rounds[key][r["function"]].append(r["median_ns"])
+    med = {k: {n: statistics.median(v) for n, v in d.items()} for k, d in rounds.items()}
+    fig["median_ns"] = med["level"]
+    fig["median_ns_portable"] = med["base"]
+    # time of the level's build over the portable build's, per round, then the median
+    fig["id_time_ratio_to_portable"] = statistics.median(
+        a / b for a, b in zip(rounds["level"]["inverse_dynamics"], rounds["base"]["inverse_dynamics"]))
+    fig["id_vs_symbolic_ratio"] = statistics.median(
+        a / b for a, b in zip(rounds["level"]["inverse_dynamics"], rounds["level"]["symbolic"]))
+    if callgrind.available():
+        calls = 200 if quick else 2000
+        fig["instructions"] = {n: callgrind.per_call(
+            exe, ["--calls-only", "--functions", n, "--iterations", str(calls)], SYMBOL[n], calls)
+            for n in names}
+        ins = fig["instructions"]
+        fig["gravity_over_id_ratio"] = ins["gravity"] / ins["inverse_dynamics"]
+        tag = level.replace("-", "_")
+        out[f"id_instructions_6dof_{tag}"] = ins["inverse_dynamics"]
+        out[f"gravity_over_id_ratio_6dof_{tag}"] = fig["gravity_over_id_ratio"]
+    out["cpu_level"] = fig
+    log(f"CPU level {level}: {json.dumps({k: v for k, v in fig.items() if k != 'symbolic_check'}, default=float)}")
 
 
 def growth(out, build, quick):
@@ -365,6 +412,24 @@ def markdown(out):
           f"{_fmt(out.get('id_ns_max_6dof'))} ns; instruction spread over "
           f"{out.get('instruction_spread_detail', {}).get('inputs', 'n/a')} inputs "
           f"{_fmt(out.get('instruction_spread'))}.", ""]
+    cl = out.get("cpu_level")
+    if cl:
+        L += [f"## The same model built for the CPU level {cl['level']}", ""]
+        if cl.get("skipped"):
+            L += [f"Skipped: {cl['skipped']}.", ""]
+        else:
+            ins = cl.get("instructions", {})
+            L += [f"Flags added to the portable ones: `{cl['flags']}` (a controller built for such a CPU; "
+                  "the package, the tests and the audits use the portable build). Medians of "
+                  "rounds in which the two builds run in turn.", "",
+                  "| function | instructions/call | median ns | portable build median ns |",
+                  "|---|---|---|---|"]
+            for name in ("inverse_dynamics", "gravity", "symbolic"):
+                L.append(f"| {name} | {_fmt(ins.get(name))} | {_fmt(cl['median_ns'].get(name))} | "
+                         f"{_fmt(cl['median_ns_portable'].get(name))} |")
+            L += ["", f"Inverse dynamics time over the portable build's: {_fmt(cl['id_time_ratio_to_portable'])}; "
+                  f"over the symbolic code's (same flags): {_fmt(cl['id_vs_symbolic_ratio'])}; "
+                  f"gravity over inverse dynamics (instructions): {_fmt(cl.get('gravity_over_id_ratio'))}.", ""]
     if out.get("id_hot_spots_6dof"):
         L += ["Where inverse dynamics spends its instructions (callgrind, self cost):", "",
               "| instructions | % | function |", "|---|---|---|"]
@@ -419,7 +484,9 @@ def main(argv=None):
         log("valgrind not found: instruction counts are left out (apt-get install valgrind)")
     if "c" not in skip:
         log("C harness on the model")
-        c_figures(out, robot, args.build, args.quick)
+        base_exe = c_figures(out, robot, args.build, args.quick)
+        log("the model built for the CPU level x86-64-v3, beside the portable build")
+        cpu_level_figures(out, robot, args.build, args.quick, base_exe)
     if "growth" not in skip:
         log("growth over random chains")
         growth(out, args.build, args.quick)
