@@ -50,4 +50,13 @@ def test_check_warnings_strict(capsys, tmp_path):
 
 def test_check_missing_file(capsys, tmp_path):
     assert main(["check", str(tmp_path / "none.toml")]) == 2
-    assert "none.toml" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    # the path and the system's reason, without Python's errno code
+    assert f"error: {tmp_path / 'none.toml'}: No such file or directory" in err
+    assert "Errno" not in err
+
+
+def test_missing_trajectory_names_the_file(capsys, tmp_path):
+    assert main(["govern", SIX, str(tmp_path / "path.csv"), "--step", "0:1"]) == 2
+    err = capsys.readouterr().err
+    assert f"{tmp_path / 'path.csv'}: No such file or directory" in err and "Errno" not in err

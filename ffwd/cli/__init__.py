@@ -34,6 +34,13 @@ def build_parser():
     return parser
 
 
+def _describe(exc):
+    """The message of exc; a file the system refused as 'path: reason' (no errno code)."""
+    if isinstance(exc, OSError) and exc.filename is not None and exc.strerror:
+        return f"{exc.filename}: {exc.strerror}"
+    return str(exc)
+
+
 def main(argv=None):
     from ..errors import ModelError
     parser = build_parser()
@@ -41,7 +48,7 @@ def main(argv=None):
     try:
         return int(args.func(args) or 0)
     except (ModelError, ValueError, OSError) as exc:
-        print(f"ffwd {args.verb}: error: {exc}", file=sys.stderr)
+        print(f"ffwd {args.verb}: error: {_describe(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print(f"ffwd {args.verb}: interrupted", file=sys.stderr)
