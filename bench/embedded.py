@@ -69,7 +69,7 @@ def public_functions():
     return sorted(set(n for n in names if not n.endswith("_H")))
 
 
-def compile_core(target, outdir):
+def compile_core(target, outdir, extra=()):
     t = TARGETS[target]
     os.makedirs(outdir, exist_ok=True)
     for old in glob.glob(os.path.join(outdir, "*")):
@@ -77,7 +77,7 @@ def compile_core(target, outdir):
     objs, warnings, errors = [], [], []
     for src in sorted(glob.glob(os.path.join(ROOT, "csrc", "*.c"))):
         obj = os.path.join(outdir, os.path.basename(src)[:-2] + ".o")
-        cmd = [t["cc"]] + WARN + [_std(src)] + t["flags"] + t["defines"] + [
+        cmd = [t["cc"]] + WARN + [_std(src)] + t["flags"] + t["defines"] + list(extra) + [
             "-ffunction-sections", "-fdata-sections", "-fstack-usage", "-fcallgraph-info=su",
             "-I" + os.path.join(ROOT, "csrc", "include"), "-I" + os.path.join(ROOT, "csrc"),
             "-c", src, "-o", obj]
@@ -191,6 +191,42 @@ def stack_report(outdir, publics):
     return out, sorted(externals), cycles, sorted(dynamic)
 
 
+IMAGES = ("empty", "feedforward", "governor")
+# a smaller build configuration a controller may choose: its RAM (work area, governor)
+SMALL_CONFIG = ["-DFFWD_MAX_DOF=8", "-DFFWD_GOV_MAX_HORIZON=64"]
+
+
+def linked_images(target, outdir, objs, extra=()):
+    """The firmware images of bench/firmware/image.c (a start-up alone; a feedforward
+    loop; the same with the governor) linked with --gc-sections against the core objects a
+    controller links, so that each keeps only the functions it calls: .text (less the
+    start-up's, the ffwd code the image carries), .data, .bss (the model, work area,
+    payload box and governor state as static objects)."""
+    t = TARGETS[target]
+    src = os.path.join(ROOT, "bench", "firmware", "image.c")
+    core = [o for o in objs if os.path.basename(o) not in NOT_IN_CONTROLLER]
+    res = {}
+    for img in IMAGES:
+        obj, elf = (os.path.join(outdir, f"image_{img}{x}") for x in (".o", ".elf"))
+        steps = ([t["cc"]] + WARN + ["-std=c99"] + t["flags"] + t["defines"] + list(extra)
+                 + ["-ffunction-sections", "-fdata-sections", f"-DIMAGE_{img.upper()}",
+                    "-I" + os.path.join(ROOT, "csrc", "include"), "-c", src, "-o", obj],
+                 [t["cc"]] + t["flags"] + ["--specs=nano.specs", "--specs=nosys.specs",
+                                           "-Wl,--gc-sections", obj] + core + ["-o", elf])
+        for cmd in steps:
+            r = subprocess.run(cmd, capture_output=True, text=True)
+            if r.returncode != 0:
+                return {"error": f"{' '.join(cmd[:3])} ...: {(r.stderr or r.stdout).strip()[:400]}"}
+        total, _ = sizes(target, [elf])
+        res[img] = total
+    start = res["empty"]["text_bytes"]
+    out = {"startup_text_bytes": start, "flags": " ".join(list(extra))}
+    for img in IMAGES[1:]:
+        out[img] = {"text_bytes": res[img]["text_bytes"] - start,
+                    "data_bytes": res[img]["data_bytes"], "bss_bytes": res[img]["bss_bytes"]}
+    return out
+
+
 def embedded_build(target, outroot, publics):
     outdir = os.path.join(outroot, target)
     t = TARGETS[target]
@@ -216,6 +252,11 @@ def embedded_build(target, outroot, publics):
     undef = undefined(target, objs)
     rep["undefined_symbols"] = undef
     rep["heap_symbols"] = [s for s in undef if FORBIDDEN.match(s)]
+    rep["images"] = linked_images(target, outdir, objs)
+    small = os.path.join(outroot, target + "-small")
+    sobjs, _, serr = compile_core(target, small, SMALL_CONFIG)
+    rep["images_small_config"] = (linked_images(target, small, sobjs, SMALL_CONFIG) if not serr
+                                  else {"error": serr[0][:400]})
     stack, ext, cycles, dynamic = stack_report(outdir, publics)
     rep["stack_bytes"] = stack
     rep["max_stack_bytes"] = max(stack.values()) if stack else None
@@ -320,6 +361,12 @@ def main(argv=None):
     report["text_bytes_m7_without_governor_plant"] = sum(
         v["text"] for k, v in m7.get("per_object", {}).items()
         if k not in ("governor.o",) + NOT_IN_CONTROLLER) or None
+    # what a controller image carries (linked, --gc-sections), M7
+    for img in IMAGES[1:]:
+        r = m7.get("images", {}).get(img, {})
+        report[f"image_text_bytes_{img}"] = r.get("text_bytes")
+        report[f"image_bss_bytes_{img}"] = r.get("bss_bytes")
+        report[f"image_bss_bytes_{img}_small_config"] = m7.get("images_small_config", {}).get(img, {}).get("bss_bytes")
     report["max_stack_bytes"] = max(
         [r["max_stack_bytes"] for r in (report["m7"], report["m4f"]) if r.get("max_stack_bytes")],
         default=None)
@@ -336,7 +383,10 @@ def main(argv=None):
         fh.write("\n")
     print(f"embedded report: {path}")
     for key in ("text_bytes", "text_bytes_plant", "text_bytes_all_objects",
-                "text_bytes_m7_without_governor_plant", "max_stack_bytes", "heap_symbols",
+                "text_bytes_m7_without_governor_plant", "image_text_bytes_feedforward",
+                "image_text_bytes_governor", "image_bss_bytes_feedforward",
+                "image_bss_bytes_governor", "image_bss_bytes_governor_small_config",
+                "max_stack_bytes", "heap_symbols",
                 "warning_free", "qemu_aarch64_tests"):
         print(f"  {key}: {report.get(key)}")
     for t in TARGETS:

@@ -94,6 +94,36 @@ def test_worst_stack_walks_the_call_graph():
     assert worst_stack("a", frames, edges)[2]  # recursion is reported
 
 
+def _arm_image_toolchain():
+    """'' when arm-none-eabi-gcc links newlib-nano images here, else why not."""
+    if shutil.which("arm-none-eabi-gcc") is None:
+        return "arm-none-eabi-gcc not installed (make embedded installs it)"
+    r = subprocess.run(["arm-none-eabi-gcc", "-mcpu=cortex-m7", "-mthumb", "-mfloat-abi=hard",
+                        "-mfpu=fpv5-d16", "--specs=nano.specs", "-print-file-name=libc_nano.a"],
+                       capture_output=True, text=True)
+    return "" if os.path.isabs(r.stdout.strip()) else "newlib for arm-none-eabi not installed"
+
+
+@pytest.mark.skipif(bool(_arm_image_toolchain()), reason=_arm_image_toolchain() or "ok")
+def test_linked_images_keep_what_they_call(tmp_path):
+    from bench.embedded import compile_core, linked_images
+    objs, warnings, errors = compile_core("m7", str(tmp_path))
+    assert objs and not errors, errors
+    img = linked_images("m7", str(tmp_path), objs)
+    assert "error" not in img, img
+
+    def symbols(name):
+        out = subprocess.run(["arm-none-eabi-nm", str(tmp_path / f"image_{name}.elf")],
+                             capture_output=True, text=True).stdout
+        return {line.split()[-1] for line in out.splitlines() if line.strip()}
+    ff, gov = symbols("feedforward"), symbols("governor")
+    # --gc-sections dropped what the loop does not call, and kept what it does
+    assert "ffwd_inverse_dynamics" in ff and "ffwd_governor_step" not in ff
+    assert "ffwd_regressor" not in ff and "ffwd_forward_dynamics" not in ff
+    assert "ffwd_governor_step" in gov
+    assert 0 < img["feedforward"]["text_bytes"] < img["governor"]["text_bytes"]
+
+
 def test_coverage_ranges():
     from bench.coverage_report import _ranges
     assert _ranges([7, 1, 2, 3, 9, 10]) == "1-3, 7, 9-10"
