@@ -412,6 +412,12 @@ def markdown(out):
           f"{_fmt(out.get('id_ns_max_6dof'))} ns; instruction spread over "
           f"{out.get('instruction_spread_detail', {}).get('inputs', 'n/a')} inputs "
           f"{_fmt(out.get('instruction_spread'))}.", ""]
+    if out.get("id_hot_spots_6dof"):
+        L += ["Where inverse dynamics spends its instructions (callgrind, self cost):", "",
+              "| instructions | % | function |", "|---|---|---|"]
+        for h in out["id_hot_spots_6dof"]:
+            L.append(f"| {h['instructions']:,} | {h['percent']:.1f} | `{h['where'].split(' [')[0]}` |")
+        L.append("")
     cl = out.get("cpu_level")
     if cl:
         L += [f"## The same model built for the CPU level {cl['level']}", ""]
@@ -429,13 +435,9 @@ def markdown(out):
                          f"{_fmt(cl['median_ns_portable'].get(name))} |")
             L += ["", f"Inverse dynamics time over the portable build's: {_fmt(cl['id_time_ratio_to_portable'])}; "
                   f"over the symbolic code's (same flags): {_fmt(cl['id_vs_symbolic_ratio'])}; "
-                  f"gravity over inverse dynamics (instructions): {_fmt(cl.get('gravity_over_id_ratio'))}.", ""]
-    if out.get("id_hot_spots_6dof"):
-        L += ["Where inverse dynamics spends its instructions (callgrind, self cost):", "",
-              "| instructions | % | function |", "|---|---|---|"]
-        for h in out["id_hot_spots_6dof"]:
-            L.append(f"| {h['instructions']:,} | {h['percent']:.1f} | `{h['where'].split(' [')[0]}` |")
-        L.append("")
+                  f"gravity over inverse dynamics (instructions): {_fmt(cl.get('gravity_over_id_ratio'))}; "
+                  "torques against the symbolic code's: max |difference| "
+                  f"{_fmt((cl.get('symbolic_check') or {}).get('max_abs_diff') if isinstance(cl.get('symbolic_check'), dict) else None)} N m.", ""]
     L += ["## Growth with the number of joints (random chains, FFWD_MAX_DOF=32)", "",
           "| joints | instructions | median ns | p99 ns |", "|---|---|---|---|"]
     for r in out.get("growth_table", []):
