@@ -110,7 +110,8 @@ def symbolic_table(sizes):
 
 
 def c_figures(out, robot, build, quick):
-    """ffwd-bench timings and callgrind counts for the model, with the symbolic code."""
+    """ffwd-bench timings and callgrind counts for the model, with the symbolic code;
+    returns the program and the symbolic C source."""
     t0 = time.perf_counter()
     sym_src, sym_facts = newton_euler.emit_c(robot)
     sym_facts["robot"] = robot.name
@@ -170,19 +171,19 @@ def c_figures(out, robot, build, quick):
         out["id_hot_spots_6dof"] = callgrind.hot_spots(
             exe, ["--calls-only", "--functions", "inverse_dynamics", "--iterations", "200"],
             SYMBOL["inverse_dynamics"])
-    return exe
+    return exe, sym_src
 
 
-def cpu_level_figures(out, robot, build, quick, base_exe, level="x86-64-v3"):
-    """The model's ffwd-bench built for CPU level `level` (cbuild.CPU_LEVELS), beside the
-    portable build base_exe: instructions per call (callgrind) and times, the two programs
-    run in alternation (rounds), so that a change of the machine's speed hits both alike."""
+def cpu_level_figures(out, robot, build, quick, base_exe, sym_src, level="x86-64-v3"):
+    """The model's ffwd-bench (with the symbolic code sym_src) built for CPU level `level`
+    (cbuild.CPU_LEVELS), beside the portable build base_exe: instructions per call
+    (callgrind) and times, the two programs run in alternation (rounds), so that a change
+    of the machine's speed hits both alike."""
     why = cbuild.cpu_level_runs(level)
     if why:
         out["cpu_level"] = {"level": level, "skipped": why}
         log(f"CPU level {level} skipped: {why}")
         return
-    sym_src, _ = newton_euler.emit_c(robot)
     exe = cbuild.model_bench(build, robot, "bench_model", symbolic_source=sym_src, level=level)
     check = subprocess.run([exe, "--check"], capture_output=True, text=True)
     fig = {"level": level, "flags": " ".join(cbuild.CPU_LEVELS[level]),
@@ -486,9 +487,9 @@ def main(argv=None):
         log("valgrind not found: instruction counts are left out (apt-get install valgrind)")
     if "c" not in skip:
         log("C harness on the model")
-        base_exe = c_figures(out, robot, args.build, args.quick)
+        base_exe, sym_src = c_figures(out, robot, args.build, args.quick)
         log("the model built for the CPU level x86-64-v3, beside the portable build")
-        cpu_level_figures(out, robot, args.build, args.quick, base_exe)
+        cpu_level_figures(out, robot, args.build, args.quick, base_exe, sym_src)
     if "growth" not in skip:
         log("growth over random chains")
         growth(out, args.build, args.quick)
